@@ -1,6 +1,19 @@
 //! icefold: every equilibrium climate of a zonal-mean energy-balance planet.
 #![warn(missing_docs)]
+// Numerical kernels index several arrays by band; explicit indices read best.
+#![allow(clippy::needless_range_loop)]
 
+pub mod albedo;
+pub mod climate;
 pub mod export;
+pub mod grid;
+pub mod insolation;
+pub mod linalg;
+pub mod model;
 pub mod netcdf;
+pub mod orbit;
 pub mod plot;
+pub mod quad;
+pub mod radiation;
+pub mod scenario;
+pub mod solve;

@@ -1,0 +1,201 @@
+//! Top-of-atmosphere insolation: daily means from the orbit (Berger 1978) and
+//! annual means by quadrature, or the Legendre form of North (1975).
+
+use crate::orbit::Orbit;
+use crate::quad::{gauss_legendre, p2};
+use std::f64::consts::{FRAC_PI_2, PI};
+
+/// Daily-mean insolation at x = sin(latitude) for solar declination δ and
+/// distance factor (a/r)² (Berger 1978, J. Atmos. Sci. 35, 2362):
+///
+/// S = (S0/π) (a/r)² [h0 sin φ sin δ + cos φ cos δ sin h0],
+/// cos h0 = -tan φ tan δ, h0 clipped to [0, π]
+/// (h0 = π in polar day, h0 = 0 in polar night).
+pub fn daily_mean(flux: f64, x: f64, declination: f64, distance_factor: f64) -> f64 {
+    flux / PI * distance_factor * day_integrand(x, declination)
+}
+
+/// h0 sin φ sin δ + cos φ cos δ sin h0 (dimensionless, 0 to π).
+fn day_integrand(x: f64, declination: f64) -> f64 {
+    let sin_phi = x.clamp(-1.0, 1.0);
+    let cos_phi = (1.0 - sin_phi * sin_phi).max(0.0).sqrt();
+    let (sin_d, cos_d) = declination.sin_cos();
+    let num = sin_phi * sin_d;
+    let den = cos_phi * cos_d;
+    let h0 = if den <= 0.0 {
+        if num > 0.0 { PI } else { 0.0 }
+    } else {
+        (-num / den).clamp(-1.0, 1.0).acos()
+    };
+    (h0 * num + den * h0.sin()).max(0.0)
+}
+
+/// How the annual-mean insolation is obtained.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum InsolationLaw {
+    /// Exact annual mean of the Berger daily means over the orbit.
+    Orbital,
+    /// The Legendre truncation S = (S0/4)(1 + p2 P2(x)) (North 1975).
+    Legendre {
+        /// Coefficient of P2(x); about -0.48 for present-day Earth.
+        p2: f64,
+    },
+}
+
+/// Annual-mean insolation as a function of latitude.
+#[derive(Clone, Debug)]
+pub struct Insolation {
+    /// The orbit (flux, obliquity, eccentricity, perihelion).
+    pub orbit: Orbit,
+    /// Orbital or Legendre.
+    pub law: InsolationLaw,
+    nodes: Vec<f64>,
+    weights: Vec<f64>,
+}
+
+/// Gauss points per smooth piece of the year integral.
+const YEAR_POINTS: usize = 40;
+
+impl Insolation {
+    /// Annual-mean insolation for `orbit` under `law`.
+    pub fn new(orbit: Orbit, law: InsolationLaw) -> Insolation {
+        let (nodes, weights) = gauss_legendre(YEAR_POINTS);
+        Insolation {
+            orbit,
+            law,
+            nodes,
+            weights,
+        }
+    }
+
+    /// Annual-mean insolation at x = sin(latitude), W m-2.
+    ///
+    /// Orbital: by Kepler's second law dt/P = r² dλ / (2π a² sqrt(1 - e²)),
+    /// so the (a/r)² of the daily mean cancels and
+    ///
+    /// S̄(φ) = S0 / (2π² sqrt(1 - e²)) ∫_0^{2π} [h0 sin φ sin δ + cos φ cos δ sin h0] dλ,
+    ///
+    /// independent of the perihelion and the same in both hemispheres.
+    /// The integrand depends on λ only through sin λ, so the integral is twice
+    /// the one over -π/2..π/2; it is split where polar day or night begins
+    /// (|sin δ| = cos φ, i.e. |sin λ| = cos φ / sin ε), and each piece is
+    /// mapped by λ = a + (b - a)(3s² - 2s³) before Gauss-Legendre, which
+    /// smooths the (λ - λ_k)^{3/2} behaviour at the break points.
+    pub fn annual_mean(&self, x: f64) -> f64 {
+        let o = &self.orbit;
+        match self.law {
+            InsolationLaw::Legendre { p2: c } => o.flux / 4.0 * (1.0 + c * p2(x)),
+            InsolationLaw::Orbital => {
+                let sin_eps = o.obliquity.sin().abs();
+                let cos_phi = (1.0 - x * x).max(0.0).sqrt();
+                let mut breaks = [-FRAC_PI_2, 0.0, 0.0, FRAC_PI_2];
+                let mut nb = 2;
+                if sin_eps > 1e-12 && cos_phi < sin_eps {
+                    let l = (cos_phi / sin_eps).asin();
+                    breaks = [-FRAC_PI_2, -l, l, FRAC_PI_2];
+                    nb = 4;
+                }
+                let pts: &[f64] = if nb == 4 {
+                    &breaks
+                } else {
+                    &[-FRAC_PI_2, FRAC_PI_2]
+                };
+                let mut total = 0.0;
+                for w in pts.windows(2) {
+                    let (a, b) = (w[0], w[1]);
+                    if b <= a {
+                        continue;
+                    }
+                    let mut piece = 0.0;
+                    for (s, wt) in self.nodes.iter().zip(&self.weights) {
+                        let s = 0.5 * (s + 1.0);
+                        let lam = a + (b - a) * s * s * (3.0 - 2.0 * s);
+                        let dlam = (b - a) * 6.0 * s * (1.0 - s);
+                        let dec = (o.obliquity.sin() * lam.sin()).asin();
+                        piece += 0.5 * wt * dlam * day_integrand(x, dec);
+                    }
+                    total += piece;
+                }
+                let e = o.eccentricity;
+                o.flux * 2.0 * total / (2.0 * PI * PI * (1.0 - e * e).sqrt())
+            }
+        }
+    }
+
+    /// Daily-mean insolation at x and year fraction t (0 = northern spring
+    /// equinox). The Legendre law has no seasons and returns its annual mean.
+    pub fn daily(&self, x: f64, t: f64) -> f64 {
+        match self.law {
+            InsolationLaw::Legendre { .. } => self.annual_mean(x),
+            InsolationLaw::Orbital => {
+                let p = self.orbit.position(t);
+                daily_mean(self.orbit.flux, x, p.declination, p.distance_factor)
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn earth(obliquity_deg: f64, e: f64) -> Insolation {
+        let orbit = Orbit {
+            flux: 1361.0,
+            obliquity: obliquity_deg.to_radians(),
+            eccentricity: e,
+            perihelion: 283f64.to_radians(),
+        };
+        Insolation::new(orbit, InsolationLaw::Orbital)
+    }
+
+    /// Pole: polar day for half the year, S̄ = S0 sin ε / π for a circular
+    /// orbit (follows from Berger 1978 with h0 = π; common practice).
+    #[test]
+    fn pole_annual_mean_is_closed_form() {
+        for eps in [5.0, 23.44, 60.0, 90.0] {
+            let s = earth(eps, 0.0).annual_mean(1.0);
+            let exact = 1361.0 * f64::to_radians(eps).sin() / PI;
+            assert!((s - exact).abs() < 1e-9 * exact, "eps={eps} {s} vs {exact}");
+        }
+    }
+
+    /// Zero obliquity, circular orbit: S̄ = (S0/π) cos φ (Berger 1978 with δ = 0).
+    #[test]
+    fn zero_obliquity_is_cosine() {
+        let ins = earth(0.0, 0.0);
+        for x in [0.0, 0.3, 0.9, 0.999] {
+            let exact = 1361.0 / PI * (1.0 - x * x).sqrt();
+            assert!((ins.annual_mean(x) - exact).abs() < 1e-10);
+        }
+    }
+
+    /// Global annual mean S0 / (4 sqrt(1 - e²)) for any orbit (Kepler's
+    /// second law; common practice, no source).
+    #[test]
+    fn global_mean_matches_kepler() {
+        let (xs, ws) = gauss_legendre(400);
+        for (eps, e) in [(23.44, 0.0167), (45.0, 0.3), (80.0, 0.6), (10.0, 0.9)] {
+            let ins = earth(eps, e);
+            // ∫_{-1}^{1} S̄ dx / 2, split at the polar circles where S̄ has
+            // limited smoothness.
+            let xc = f64::to_radians(90.0 - eps).sin();
+            let mut pts = vec![0.0, 1.0];
+            if xc > 0.0 && xc < 1.0 {
+                pts.insert(1, xc);
+            }
+            let mut mean = 0.0;
+            for w in pts.windows(2) {
+                for (s, wt) in xs.iter().zip(&ws) {
+                    let x = w[0] + (w[1] - w[0]) * 0.5 * (s + 1.0);
+                    mean += 0.5 * wt * (w[1] - w[0]) * ins.annual_mean(x);
+                }
+            }
+            let exact = 1361.0 / (4.0 * (1.0 - e * e).sqrt());
+            assert!(
+                (mean - exact).abs() < 1e-7 * exact,
+                "eps={eps} e={e}: {mean} vs {exact}"
+            );
+        }
+    }
+}
