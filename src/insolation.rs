@@ -164,7 +164,7 @@ mod tests {
     #[test]
     fn zero_obliquity_is_cosine() {
         let ins = earth(0.0, 0.0);
-        for x in [0.0, 0.3, 0.9, 0.999] {
+        for x in [0.0f64, 0.3, 0.9, 0.999] {
             let exact = 1361.0 / PI * (1.0 - x * x).sqrt();
             assert!((ins.annual_mean(x) - exact).abs() < 1e-10);
         }

@@ -555,9 +555,11 @@ pub fn budyko_fold(p: &RelaxationParams) -> (f64, f64) {
             cands.push(r);
         }
     }
-    let best = cands.into_iter().map(|x| (x, budyko_q_of_xs(p, x))).fold(
-        (f64::NAN, f64::INFINITY),
-        |a, b| if b.1 < a.1 { b } else { a },
-    );
-    best
+    cands
+        .into_iter()
+        .map(|x| (x, budyko_q_of_xs(p, x)))
+        .fold(
+            (f64::NAN, f64::INFINITY),
+            |a, b| if b.1 < a.1 { b } else { a },
+        )
 }
