@@ -1,7 +1,5 @@
 //! icefold: every equilibrium climate of a zonal-mean energy-balance planet.
 #![warn(missing_docs)]
-// Numerical kernels index several arrays by band; explicit indices read best.
-#![allow(clippy::needless_range_loop)]
 
 pub mod albedo;
 pub mod climate;
