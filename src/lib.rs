@@ -2,6 +2,8 @@
 #![warn(missing_docs)]
 
 pub mod albedo;
+pub mod cli;
+pub mod cli_trace;
 pub mod climate;
 pub mod export;
 pub mod grid;

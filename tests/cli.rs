@@ -1,0 +1,116 @@
+//! End-to-end command-line tests in a temporary directory.
+use std::path::PathBuf;
+use std::process::Command;
+
+fn icefold(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_icefold"))
+        .args(args)
+        .output()
+        .expect("run icefold");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn temp_dir(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("icefold-test-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    d
+}
+
+#[test]
+fn solve_writes_every_output() {
+    let d = temp_dir("solve");
+    let (code, stdout, stderr) = icefold(&["solve", "--out", d.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stdout.contains("polar-caps") && stdout.contains("snowball"),
+        "{stdout}"
+    );
+    let csv = std::fs::read_to_string(d.join("profile.csv")).unwrap();
+    assert!(csv.starts_with(
+        "equilibrium,latitude_deg,sin_latitude,temperature_c,albedo,insolation_wm2,absorbed_wm2,olr_wm2,transport_wm2\n"
+    ));
+    assert_eq!(csv.lines().count(), 1 + 2 * 90);
+    assert!(!csv.contains("NaN"));
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap();
+    let eq = summary["equilibria"].as_array().unwrap();
+    assert_eq!(eq[0]["state"], "polar-caps");
+    for key in [
+        "global_mean_temperature_c",
+        "ice_area_fraction",
+        "ice_edges_deg",
+        "planetary_albedo",
+        "unstable_modes",
+        "energy_imbalance_wm2",
+        "newton_iterations",
+    ] {
+        assert!(eq[0].get(key).is_some(), "missing {key}");
+    }
+    for f in ["profiles.svg", "profiles.png", "scenario.toml"] {
+        assert!(d.join(f).exists(), "{f}");
+    }
+    // a profile from this run is a valid extra start
+    let d2 = temp_dir("solve2");
+    let (code, _, stderr) = icefold(&[
+        "solve",
+        "--start",
+        d.join("profile.csv").to_str().unwrap(),
+        "--out",
+        d2.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+}
+
+#[test]
+fn sun_writes_tables() {
+    let d = temp_dir("sun");
+    let (code, _, stderr) = icefold(&["sun", "--out", d.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    let csv = std::fs::read_to_string(d.join("insolation.csv")).unwrap();
+    assert!(csv.starts_with("latitude_deg,day_of_year,insolation_wm2\n"));
+    let annual = std::fs::read_to_string(d.join("annual_insolation.csv")).unwrap();
+    assert_eq!(annual.lines().count(), 91);
+}
+
+#[test]
+fn bad_input_exits_2_and_writes_nothing() {
+    let d = temp_dir("bad");
+    let bad = d.with_extension("toml");
+    std::fs::write(&bad, "[orbit]\nflux = \n").unwrap();
+    let cases: Vec<(Vec<&str>, &str)> = vec![
+        (vec!["solve", "missing.toml"], "cannot read scenario"),
+        (vec!["solve", bad.to_str().unwrap()], ":2:"),
+        (
+            vec!["solve", "--set", "orbit.obliqity=3"],
+            "did you mean `orbit.obliquity`",
+        ),
+        (vec!["solve", "--set", "orbit.flux=-5"], "orbit.flux"),
+        (vec!["solve", "--set", "orbit.obliquity=190"], "0 to 180"),
+        (vec!["solve", "--set", "albedo.ice=1.5"], "albedo.ice"),
+        (vec!["solve", "--set", "grid.bands=2"], "grid.bands"),
+        (vec!["solve", "--set", "grid.bands=100000000"], "grid.bands"),
+        (vec!["solve", "--set", "radiation.b=inf"], "radiation.b"),
+        (vec!["solve", "--bogus"], "unknown option"),
+        (vec!["launch"], "unknown command"),
+    ];
+    for (args, expect) in cases {
+        let mut a = args.clone();
+        a.extend(["--out", d.to_str().unwrap()]);
+        let (code, _, stderr) = icefold(&a);
+        assert_eq!(code, 2, "{args:?}: {stderr}");
+        assert!(stderr.contains(expect), "{args:?}: {stderr}");
+        assert_eq!(stderr.trim().lines().count(), 1, "one-line error: {stderr}");
+        assert!(!d.exists(), "{args:?} wrote output");
+    }
+}
+
+#[test]
+fn check_prints_resolved_scenario() {
+    let (code, stdout, _) = icefold(&["check", "--set", "orbit.flux=1300"]);
+    assert_eq!(code, 0);
+    assert!(stdout.contains("flux = 1300.0"));
+}
