@@ -1,9 +1,314 @@
-//! `icefold trace` (continuation in one parameter).
-use crate::cli::{Args, CliError};
+//! `icefold trace`: every branch of equilibria in one parameter.
+use crate::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::cli::{Args, CliError, load, out_dir, provenance, written_list};
+use crate::export::{Cell, OutputSet, Table};
+use crate::model::Param;
+use crate::plot::{self, BranchCurve, FoldMark};
+use std::io::IsTerminal;
 
-/// Runs `trace` (not yet available).
-pub fn cmd_trace(_args: &Args) -> Result<String, CliError> {
-    Err(CliError::Failed(
-        "trace: continuation is not built yet".into(),
-    ))
+/// Parses and checks `--vary`, `--from`, `--to` against the model.
+pub fn parse_range(
+    args: &Args,
+    model: &crate::model::Model,
+) -> Result<(Param, f64, f64), CliError> {
+    let key = args.vary.clone().unwrap_or_else(|| "orbit.flux".into());
+    let keys: Vec<&str> = Param::ALL.iter().map(|p| p.key()).collect();
+    let param = Param::from_key(&key).ok_or_else(|| {
+        CliError::Usage(format!(
+            "--vary `{key}` is not a parameter that can be varied; one of: {}",
+            keys.join(", ")
+        ))
+    })?;
+    if !model.has_param(param) {
+        return Err(CliError::Usage(format!(
+            "--vary `{key}` does not apply to this scenario (e.g. radiation.a needs radiation.kind = \"linear\")"
+        )));
+    }
+    let current = model.param(param);
+    let (vlo, vhi) = param.range();
+    let num = |flag: &str, v: &Option<String>, default: f64| -> Result<f64, CliError> {
+        match v {
+            None => Ok(default),
+            Some(s) => match s.trim().parse::<f64>() {
+                Ok(x) if x.is_finite() => Ok(x),
+                _ => Err(CliError::Usage(format!(
+                    "{flag} `{s}` is not a finite number"
+                ))),
+            },
+        }
+    };
+    let (dlo, dhi) = if param == Param::Flux {
+        (0.8 * current, 1.15 * current)
+    } else {
+        let w = 0.2 * current.abs().max(1.0);
+        ((current - w).max(vlo), (current + w).min(vhi))
+    };
+    let from = num("--from", &args.from, dlo)?;
+    let to = num("--to", &args.to, dhi)?;
+    if from >= to {
+        return Err(CliError::Usage(format!(
+            "--from {from} --to {to}: the range is empty or inverted (need from < to)"
+        )));
+    }
+    if from < vlo || to > vhi {
+        return Err(CliError::Usage(format!(
+            "--from {from} --to {to}: {key} must stay within {vlo} to {vhi}"
+        )));
+    }
+    Ok((param, from, to))
+}
+
+/// Runs `trace`.
+pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
+    let sc = load(args)?;
+    let model = sc.model();
+    let (param, from, to) = parse_range(args, &model)?;
+    let interactive = std::io::stderr().is_terminal();
+    let quiet = args.quiet;
+    let mut progress = |msg: &str| {
+        if !quiet {
+            if interactive {
+                eprint!("\r\x1b[2Ktrace: {msg}");
+            } else {
+                eprintln!("trace: {msg}");
+            }
+        }
+    };
+    let opts = TraceOptions {
+        tolerance: sc.num("solver.tolerance"),
+        ..TraceOptions::default()
+    };
+    let h = trace_all(
+        &model,
+        param,
+        from,
+        to,
+        sc.num("solver.warm_start"),
+        sc.num("solver.cold_start"),
+        &opts,
+        &mut progress,
+    );
+    if !quiet && interactive {
+        eprintln!();
+    }
+    for b in &h.branches {
+        for e in &b.ends {
+            if let crate::continuation::EndReason::StepTooSmall { .. } = e {
+                if !quiet {
+                    eprintln!("trace: branch {} ended early: {e}", b.id);
+                }
+            }
+        }
+    }
+    for f in &h.failures {
+        if !quiet {
+            eprintln!("trace: {f}");
+        }
+    }
+    if h.branches.is_empty() {
+        return Err(CliError::Failed(
+            "no branch could be traced; nothing written".into(),
+        ));
+    }
+    let dir = out_dir(args);
+    let mut out = OutputSet::new();
+    let key = param.key();
+    out.add_table(dir.join("branches.csv"), &branches_table(&h))?;
+    out.add_table(dir.join("folds.csv"), &folds_table(&h))?;
+    let mut summary = provenance(&sc, args);
+    summary.insert("vary".into(), key.into());
+    summary.insert("range".into(), serde_json::json!([from, to]));
+    summary.insert("folds".into(), folds_json(&h));
+    summary.insert(
+        "bistable_windows".into(),
+        h.bistable
+            .iter()
+            .map(|(a, b)| serde_json::json!({ "from": a, "to": b }))
+            .collect(),
+    );
+    summary.insert(
+        "branches".into(),
+        h.branches
+            .iter()
+            .map(|b| {
+                serde_json::json!({
+                    "branch": b.id,
+                    "points": b.points.len(),
+                    "ends": [b.ends[0].to_string(), b.ends[1].to_string()],
+                })
+            })
+            .collect(),
+    );
+    summary.insert(
+        "failures".into(),
+        h.failures
+            .iter()
+            .map(|s| serde_json::Value::from(s.clone()))
+            .collect(),
+    );
+    out.add_text(
+        dir.join("summary.json"),
+        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
+    );
+    let fig = hysteresis_figure(&h, sc.name())?;
+    out.add(dir.join("hysteresis.svg"), fig.svg);
+    out.add(dir.join("hysteresis.png"), fig.png);
+    out.add_text(dir.join("scenario.toml"), &sc.to_toml());
+    let written = out.commit()?;
+    let mut s = format!(
+        "{}: {} branches in {key} over [{from}, {to}]\n",
+        sc.name(),
+        h.branches.len()
+    );
+    for b in &h.branches {
+        for f in &b.folds {
+            let d = &f.point.diagnostics;
+            s += &format!(
+                "  fold on branch {}: {key} = {:.9}  ice edge {:.3} deg  global mean {:.3} C  {} -> {}\n",
+                b.id,
+                f.point.p,
+                poleward_edge_deg(d),
+                d.global_mean_c,
+                d.state.label(),
+                f.jump_to
+                    .as_ref()
+                    .map_or("none", |j| j.diagnostics.state.label())
+            );
+        }
+    }
+    for (a, b) in &h.bistable {
+        s += &format!("  bistable: {key} from {a:.6} to {b:.6}\n");
+    }
+    s += &written_list(&written);
+    Ok(s)
+}
+
+fn branches_table(h: &Hysteresis) -> Table {
+    let key = h.param.key();
+    let mut t = Table::new(&[
+        "branch",
+        key,
+        "global_mean_temperature_c",
+        "ice_area_fraction",
+        "ice_edge_deg",
+        "state",
+        "stable",
+        "unstable_modes",
+    ]);
+    for b in &h.branches {
+        for q in &b.points {
+            let d = &q.diagnostics;
+            t.push_row(vec![
+                Cell::Int(b.id as i64),
+                Cell::Num(q.p),
+                Cell::Num(d.global_mean_c),
+                Cell::Num(d.ice_area_fraction),
+                Cell::Num(poleward_edge_deg(d)),
+                Cell::Text(d.state.label().into()),
+                Cell::Bool(q.unstable_modes == 0),
+                Cell::Int(q.unstable_modes as i64),
+            ]);
+        }
+    }
+    t
+}
+
+fn folds_table(h: &Hysteresis) -> Table {
+    let key = h.param.key();
+    let mut t = Table::new(&[
+        "branch",
+        key,
+        "global_mean_temperature_c",
+        "ice_area_fraction",
+        "ice_edge_deg",
+        "from_state",
+        "to_state",
+    ]);
+    for b in &h.branches {
+        for f in &b.folds {
+            let d = &f.point.diagnostics;
+            t.push_row(vec![
+                Cell::Int(b.id as i64),
+                Cell::Num(f.point.p),
+                Cell::Num(d.global_mean_c),
+                Cell::Num(d.ice_area_fraction),
+                Cell::Num(poleward_edge_deg(d)),
+                Cell::Text(d.state.label().into()),
+                Cell::Text(
+                    f.jump_to
+                        .as_ref()
+                        .map_or("none", |j| j.diagnostics.state.label())
+                        .into(),
+                ),
+            ]);
+        }
+    }
+    t
+}
+
+fn folds_json(h: &Hysteresis) -> serde_json::Value {
+    let mut v = Vec::new();
+    for b in &h.branches {
+        for f in &b.folds {
+            let d = &f.point.diagnostics;
+            v.push(serde_json::json!({
+                "branch": b.id,
+                "value": f.point.p,
+                "global_mean_temperature_c": d.global_mean_c,
+                "ice_area_fraction": d.ice_area_fraction,
+                "ice_edge_deg": poleward_edge_deg(d),
+                "residual_wm2": f.point.residual,
+                "from_state": d.state.label(),
+                "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
+                "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
+            }));
+        }
+    }
+    serde_json::Value::Array(v)
+}
+
+fn hysteresis_figure(
+    h: &Hysteresis,
+    name: &str,
+) -> Result<plot::Figure, crate::export::ExportError> {
+    let branches: Vec<BranchCurve> = h
+        .branches
+        .iter()
+        .map(|b| BranchCurve {
+            id: b.id,
+            param: b.points.iter().map(|q| q.p).collect(),
+            ice_edge_deg: b
+                .points
+                .iter()
+                .map(|q| poleward_edge_deg(&q.diagnostics))
+                .collect(),
+            global_mean_c: b
+                .points
+                .iter()
+                .map(|q| q.diagnostics.global_mean_c)
+                .collect(),
+            stable: b.points.iter().map(|q| q.unstable_modes == 0).collect(),
+        })
+        .collect();
+    let folds: Vec<FoldMark> = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .map(|f| FoldMark {
+            param: f.point.p,
+            ice_edge_deg: poleward_edge_deg(&f.point.diagnostics),
+            global_mean_c: f.point.diagnostics.global_mean_c,
+            jump_to_ice_edge_deg: f
+                .jump_to
+                .as_ref()
+                .map(|j| poleward_edge_deg(&j.diagnostics)),
+            jump_to_global_mean_c: f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
+        })
+        .collect();
+    plot::hysteresis_figure(
+        &format!("Branches of equilibria: {name}"),
+        h.param.key(),
+        &branches,
+        &folds,
+    )
 }

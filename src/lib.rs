@@ -2,9 +2,11 @@
 #![warn(missing_docs)]
 
 pub mod albedo;
+pub mod branches;
 pub mod cli;
 pub mod cli_trace;
 pub mod climate;
+pub mod continuation;
 pub mod export;
 pub mod grid;
 pub mod insolation;

@@ -715,6 +715,30 @@ impl Model {
         out
     }
 
+    /// A label of the ice topology: the number of ice intervals and whether
+    /// each end of the domain is ice-covered. Allocates nothing.
+    pub fn ice_topology(&self, t: &[f64]) -> u64 {
+        let mut intervals = 0u64;
+        let mut prev_ice = false;
+        let (mut first, mut last) = (false, false);
+        for k in 0..self.half.len() {
+            let (lo_ice, hi_ice) = match self.half_ice(k, t) {
+                HalfIce::Open => (false, false),
+                HalfIce::Ice => (true, true),
+                HalfIce::Edge { ice_above, .. } => (!ice_above, ice_above),
+            };
+            if k == 0 {
+                first = lo_ice;
+            }
+            if lo_ice && !prev_ice {
+                intervals += 1;
+            }
+            prev_ice = hi_ice;
+            last = hi_ice;
+        }
+        intervals * 4 + u64::from(first) * 2 + u64::from(last)
+    }
+
     /// Ice-covered intervals of x under profile `t`, merged, ascending.
     /// Step law: where the piecewise-linear profile is below T_s. Smooth
     /// law: the same rule (the ice edge is where T crosses T_s).

@@ -114,3 +114,41 @@ fn check_prints_resolved_scenario() {
     assert_eq!(code, 0);
     assert!(stdout.contains("flux = 1300.0"));
 }
+
+#[test]
+fn trace_writes_outputs_and_rejects_bad_ranges() {
+    let d = temp_dir("trace");
+    let (code, stdout, stderr) = icefold(&["trace", "--quiet", "--out", d.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.contains("polar-caps -> snowball"), "{stdout}");
+    let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
+    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_deg,state,stable,unstable_modes\n"));
+    let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_deg,from_state,to_state\n"));
+    for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
+        assert!(d.join(x).exists());
+    }
+    let bad = temp_dir("trace-bad");
+    for args in [
+        vec!["trace", "--vary", "orbit.colour"],
+        vec!["trace", "--vary", "grid.bands"],
+        vec!["trace", "--from", "1300", "--to", "1200"],
+        vec!["trace", "--from", "1300", "--to", "1300"],
+        vec!["trace", "--from", "abc"],
+        vec![
+            "trace",
+            "--vary",
+            "orbit.obliquity",
+            "--from",
+            "0",
+            "--to",
+            "200",
+        ],
+    ] {
+        let mut a = args.clone();
+        a.extend(["--out", bad.to_str().unwrap()]);
+        let (code, _, stderr) = icefold(&a);
+        assert_eq!(code, 2, "{args:?}: {stderr}");
+        assert!(!bad.exists());
+    }
+}

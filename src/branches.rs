@@ -1,0 +1,385 @@
+//! Every branch of equilibria of the annual-mean model in one parameter:
+//! seeds from several starts and parameter values, continuation of each
+//! distinct branch, folds with the jump they cause, and bistable windows.
+
+use crate::climate::{Diagnostics, State, diagnose, find_equilibria, standard_starts};
+use crate::continuation::{Branch, EndReason, Problem, Settings, Tracer};
+use crate::linalg::{Singular, Tridiagonal};
+use crate::model::{Model, Param};
+use crate::solve::{NewtonOptions, Workspace, newton, spin_up, unstable_modes};
+
+/// The annual-mean model as a continuation problem in one parameter.
+pub struct AnnualProblem {
+    /// The model (its parameter is changed in place).
+    pub model: Model,
+    /// The varied parameter.
+    pub param: Param,
+    jac: Tridiagonal,
+    scratch: Vec<f64>,
+    ws: Workspace,
+}
+
+impl AnnualProblem {
+    /// Wraps `model`, varying `param`.
+    pub fn new(model: Model, param: Param) -> AnnualProblem {
+        let jac = model.new_jacobian();
+        let ws = Workspace::new(&model);
+        let scratch = vec![0.0; model.len()];
+        AnnualProblem {
+            model,
+            param,
+            jac,
+            scratch,
+            ws,
+        }
+    }
+}
+
+impl Problem for AnnualProblem {
+    fn dim(&self) -> usize {
+        self.model.len()
+    }
+    fn set_param(&mut self, p: f64) {
+        if self.model.param(self.param) != p {
+            self.model.set_param(self.param, p);
+        }
+    }
+    fn residual(&mut self, u: &[f64], f: &mut [f64]) {
+        self.model.evaluate(u, f, None);
+    }
+    fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular> {
+        self.model.evaluate(u, f, Some(&mut self.jac));
+        self.jac.factor()
+    }
+    fn solve(&self, b: &mut [f64]) {
+        self.jac.solve(b);
+    }
+    fn jac_mul(&self, v: &[f64], y: &mut [f64]) {
+        self.jac.mul(v, y);
+    }
+    fn d_param(&mut self, u: &[f64], out: &mut [f64]) {
+        self.model
+            .d_residual_d_param(self.param, u, out, &mut self.scratch);
+    }
+    fn unstable_modes(&mut self, u: &[f64]) -> usize {
+        unstable_modes(&self.model, u, &mut self.ws)
+    }
+    fn label(&mut self, u: &[f64]) -> u64 {
+        // which half-bands hold an edge or ice changes only at kinks
+        self.model.ice_topology(u)
+    }
+}
+
+/// A traced point with its diagnostics.
+#[derive(Clone, Debug)]
+pub struct TracedPoint {
+    /// Parameter value.
+    pub p: f64,
+    /// Temperatures, °C.
+    pub temperature: Vec<f64>,
+    /// Diagnostics.
+    pub diagnostics: Diagnostics,
+    /// Unstable modes.
+    pub unstable_modes: usize,
+    /// Max |F|, W m-2.
+    pub residual: f64,
+}
+
+/// A located fold with the jump it causes.
+#[derive(Clone, Debug)]
+pub struct Fold {
+    /// The fold point.
+    pub point: TracedPoint,
+    /// Index of the branch point after which it lies.
+    pub after: usize,
+    /// The stable climate reached when the parameter passes the fold, if
+    /// the fold bounds a stable segment.
+    pub jump_to: Option<TracedPoint>,
+}
+
+/// One traced branch.
+#[derive(Clone, Debug)]
+pub struct TracedBranch {
+    /// Branch id (1-based).
+    pub id: usize,
+    /// Points in arclength order.
+    pub points: Vec<TracedPoint>,
+    /// Folds.
+    pub folds: Vec<Fold>,
+    /// How the two ends finished.
+    pub ends: [EndReason; 2],
+}
+
+/// All branches in a parameter range.
+#[derive(Clone, Debug)]
+pub struct Hysteresis {
+    /// The varied parameter.
+    pub param: Param,
+    /// Range.
+    pub range: (f64, f64),
+    /// Branches.
+    pub branches: Vec<TracedBranch>,
+    /// Parameter intervals where two or more stable climates coexist.
+    pub bistable: Vec<(f64, f64)>,
+    /// Seeds that could not be continued, with the reason.
+    pub failures: Vec<String>,
+}
+
+/// Most poleward northern ice edge: 90 if ice-free, 0 if snowball.
+pub fn poleward_edge_deg(d: &Diagnostics) -> f64 {
+    match d.state {
+        State::IceFree => 90.0,
+        State::Snowball => 0.0,
+        _ => d
+            .ice_edges_deg
+            .last()
+            .copied()
+            .unwrap_or(if d.ice_area_fraction > 0.5 { 0.0 } else { 90.0 }),
+    }
+}
+
+fn traced(model: &Model, p: f64, u: Vec<f64>, unstable: usize, residual: f64) -> TracedPoint {
+    let diagnostics = diagnose(model, &u);
+    TracedPoint {
+        p,
+        temperature: u,
+        diagnostics,
+        unstable_modes: unstable,
+        residual,
+    }
+}
+
+/// Continuation options.
+#[derive(Clone, Copy, Debug)]
+pub struct TraceOptions {
+    /// Seed parameter values (evenly spaced, ends included).
+    pub seed_values: usize,
+    /// Corrector tolerance, W m-2.
+    pub tolerance: f64,
+}
+
+impl Default for TraceOptions {
+    fn default() -> Self {
+        TraceOptions {
+            seed_values: 5,
+            tolerance: 1e-10,
+        }
+    }
+}
+
+fn on_branch(b: &Branch, u: &[f64], p: f64, scale: f64) -> bool {
+    // near any point, or near the chord between consecutive points
+    b.points.windows(2).any(|w| {
+        let (a, c) = (&w[0], &w[1]);
+        let (lo, hi) = (a.p.min(c.p), a.p.max(c.p));
+        if p < lo - 1e-9 * scale || p > hi + 1e-9 * scale {
+            return false;
+        }
+        let f = if (c.p - a.p).abs() > 0.0 {
+            (p - a.p) / (c.p - a.p)
+        } else {
+            0.0
+        };
+        u.iter()
+            .zip(a.u.iter().zip(&c.u))
+            .all(|(x, (ua, uc))| (x - (ua + f * (uc - ua))).abs() < 0.5)
+    }) || b.points.iter().any(|q| {
+        (q.p - p).abs() < 1e-9 * scale && q.u.iter().zip(u).all(|(a, b)| (a - b).abs() < 1e-6)
+    })
+}
+
+/// Traces every branch of `model` in `param` over [lo, hi].
+/// `progress` is called with a short message as work proceeds.
+pub fn trace_all(
+    model: &Model,
+    param: Param,
+    lo: f64,
+    hi: f64,
+    warm: f64,
+    cold: f64,
+    opts: &TraceOptions,
+    progress: &mut dyn FnMut(&str),
+) -> Hysteresis {
+    let mut failures = Vec::new();
+    // 1. seeds: equilibria from warm and cold starts at several values
+    let mut seeds: Vec<(f64, Vec<f64>)> = Vec::new();
+    let k = opts.seed_values.max(2);
+    let nopts = NewtonOptions {
+        tolerance: opts.tolerance,
+        ..NewtonOptions::default()
+    };
+    for j in 0..k {
+        let p = lo + (hi - lo) * j as f64 / (k - 1) as f64;
+        let mut m = model.clone();
+        m.set_param(param, p);
+        let search = find_equilibria(&m, &standard_starts(m.len(), warm, cold), &nopts);
+        for e in search.equilibria {
+            seeds.push((p, e.temperature));
+        }
+        progress(&format!("seeds at {} = {p:.6}", param.key()));
+    }
+    // 2. trace each seed not yet on a traced branch
+    let settings = Settings {
+        tolerance: opts.tolerance,
+        ..Settings::for_range(lo, hi)
+    };
+    let mut problem = AnnualProblem::new(model.clone(), param);
+    let mut raw: Vec<Branch> = Vec::new();
+    for (p, u) in &seeds {
+        if raw.iter().any(|b| on_branch(b, u, *p, (hi - lo).abs())) {
+            continue;
+        }
+        let mut tracer = Tracer::new(&mut problem, settings);
+        match tracer.trace(u, *p) {
+            Ok(b) => {
+                progress(&format!(
+                    "branch {}: {} points, {} folds",
+                    raw.len() + 1,
+                    b.points.len(),
+                    b.folds.len()
+                ));
+                raw.push(b);
+            }
+            Err(_) => failures.push(format!(
+                "seed at {} = {p}: singular Jacobian, not continued",
+                param.key()
+            )),
+        }
+    }
+    // 3. diagnostics, folds and jumps
+    let mut m = model.clone();
+    let mut branches = Vec::new();
+    for (id, b) in raw.into_iter().enumerate() {
+        let mut points = Vec::with_capacity(b.points.len());
+        for q in &b.points {
+            m.set_param(param, q.p);
+            points.push(traced(&m, q.p, q.u.clone(), q.unstable_modes, q.residual));
+        }
+        let mut folds = Vec::new();
+        for f in &b.folds {
+            m.set_param(param, f.point.p);
+            let fp = traced(
+                &m,
+                f.point.p,
+                f.point.u.clone(),
+                f.point.unstable_modes,
+                f.point.residual,
+            );
+            let jump_to = jump_from(
+                &m,
+                param,
+                &b,
+                f.after,
+                &f.point.u,
+                f.point.p,
+                (hi - lo).abs(),
+                &nopts,
+            );
+            folds.push(Fold {
+                point: fp,
+                after: f.after,
+                jump_to,
+            });
+        }
+        branches.push(TracedBranch {
+            id: id + 1,
+            points,
+            folds,
+            ends: b.ends.clone(),
+        });
+    }
+    let bistable = bistable_windows(&branches, lo, hi);
+    Hysteresis {
+        param,
+        range: (lo, hi),
+        branches,
+        bistable,
+        failures,
+    }
+}
+
+/// Where the climate goes when the parameter moves past the fold: the
+/// fold state is time-stepped (implicit, 1-year steps) at a parameter just
+/// beyond the fold, then Newton polishes the end state.
+#[allow(clippy::too_many_arguments)]
+fn jump_from(
+    model: &Model,
+    param: Param,
+    b: &Branch,
+    after: usize,
+    u: &[f64],
+    p: f64,
+    width: f64,
+    nopts: &NewtonOptions,
+) -> Option<TracedPoint> {
+    // the branch exists on the side of its neighbours; beyond is the other side
+    let neighbour = b.points.get(after)?.p;
+    let beyond = if neighbour > p { -1.0 } else { 1.0 };
+    let mut m = model.clone();
+    let pj = p + beyond * 1e-4 * width;
+    let (lo, hi) = param.range();
+    if pj < lo || pj > hi {
+        return None;
+    }
+    m.set_param(param, pj);
+    let mut t = u.to_vec();
+    let mut ws = Workspace::new(&m);
+    spin_up(&m, &mut t, 1.0, 1e-7, 20000, &mut ws).ok()?;
+    newton(&m, &mut t, nopts, &mut ws).ok()?;
+    let modes = unstable_modes(&m, &t, &mut ws);
+    if modes != 0 {
+        return None;
+    }
+    let mut f = vec![0.0; m.len()];
+    m.evaluate(&t, &mut f, None);
+    let res = f.iter().fold(0.0f64, |a, x| a.max(x.abs()));
+    Some(traced(&m, pj, t, 0, res))
+}
+
+/// Parameter intervals covered by two or more stable segments.
+fn bistable_windows(branches: &[TracedBranch], lo: f64, hi: f64) -> Vec<(f64, f64)> {
+    let mut intervals: Vec<(f64, f64)> = Vec::new();
+    for b in branches {
+        let mut k = 0;
+        while k < b.points.len() {
+            if b.points[k].unstable_modes != 0 {
+                k += 1;
+                continue;
+            }
+            let start = k;
+            while k + 1 < b.points.len() && b.points[k + 1].unstable_modes == 0 {
+                k += 1;
+            }
+            let seg = &b.points[start..=k];
+            let mut a = seg.iter().map(|q| q.p).fold(f64::INFINITY, f64::min);
+            let mut z = seg.iter().map(|q| q.p).fold(f64::NEG_INFINITY, f64::max);
+            // extend to the folds that bound the segment
+            for f in &b.folds {
+                if f.after + 1 == start || f.after == k {
+                    a = a.min(f.point.p);
+                    z = z.max(f.point.p);
+                }
+            }
+            intervals.push((a.max(lo), z.min(hi)));
+            k += 1;
+        }
+    }
+    let mut events: Vec<(f64, i32)> = intervals
+        .iter()
+        .flat_map(|&(a, z)| [(a, 1), (z, -1)])
+        .collect();
+    events.sort_by(|x, y| x.0.total_cmp(&y.0).then(y.1.cmp(&x.1)));
+    let mut out: Vec<(f64, f64)> = Vec::new();
+    let mut depth = 0;
+    let mut open = 0.0;
+    for (x, d) in events {
+        let before = depth;
+        depth += d;
+        if before < 2 && depth >= 2 {
+            open = x;
+        } else if before >= 2 && depth < 2 && x > open {
+            out.push((open, x));
+        }
+    }
+    out
+}

@@ -1,0 +1,565 @@
+//! Pseudo-arclength continuation (Keller 1977) over any [`Problem`], with
+//! fold location and stability along the branch.
+//!
+//! A branch is a curve (u(s), p(s)) of solutions of F(u, p) = 0 traced by
+//! arclength s in the weighted norm ||(du, dp)||² = Σ du_i²/(n T²) + dp²/P².
+//! Each step predicts along the unit tangent t = (t_u, t_p) and corrects with
+//! Newton on the bordered system
+//!
+//! [ J    F_p ] [δu]   [ -F ]
+//! [ t_uᵀW t_p W_p ] [δp] = [ -N ],   N = <t, (u, p) - predicted>_W,
+//!
+//! solved by block elimination over the problem's own O(n) solver
+//! (a = J⁻¹F, b = J⁻¹F_p) with one step of iterative refinement, which
+//! keeps it accurate near folds where J is nearly singular.
+//!
+//! **Folds** are where t_p changes sign. Each is refined by the secant method
+//! on the scalar fold condition t_p(s) = 0 along the branch, every trial point
+//! being a fully corrected solution (max |F| below the tolerance), so the
+//! fold is an equilibrium with a vanishing parameter component of the tangent,
+//! i.e. a zero of the extended system {F = 0, J v = 0} with v = t_u.
+
+use crate::linalg::Singular;
+
+/// What continuation needs from a problem: residual, an O(n) factor-solve
+/// of its Jacobian, the parameter derivative, and stability.
+pub trait Problem {
+    /// State dimension n.
+    fn dim(&self) -> usize;
+    /// Sets the continuation parameter.
+    fn set_param(&mut self, p: f64);
+    /// F(u) at the current parameter.
+    fn residual(&mut self, u: &[f64], f: &mut [f64]);
+    /// Factors J(u) at the current parameter, keeping the factors; also
+    /// writes F(u) into `f`.
+    fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular>;
+    /// Solves J x = b in place with the last factors.
+    fn solve(&self, b: &mut [f64]);
+    /// y = J v with the last factored Jacobian.
+    fn jac_mul(&self, v: &[f64], y: &mut [f64]);
+    /// ∂F/∂p at u.
+    fn d_param(&mut self, u: &[f64], out: &mut [f64]);
+    /// Number of unstable modes at u (0 = stable).
+    fn unstable_modes(&mut self, u: &[f64]) -> usize;
+    /// A discrete label of the state (e.g. the ice topology). Where it
+    /// changes between two points the residual may have a kink, so the step
+    /// is shrunk until the change is pinned within a tiny arclength and no
+    /// short segment between two nearby turning points is stepped over.
+    fn label(&mut self, _u: &[f64]) -> u64 {
+        0
+    }
+}
+
+/// Continuation settings.
+#[derive(Clone, Copy, Debug)]
+pub struct Settings {
+    /// Parameter bounds [lo, hi].
+    pub lo: f64,
+    /// Upper bound.
+    pub hi: f64,
+    /// Temperature scale T of the arclength norm, K.
+    pub state_scale: f64,
+    /// Parameter scale P of the arclength norm.
+    pub param_scale: f64,
+    /// First, smallest and largest arclength step.
+    pub ds0: f64,
+    /// Smallest step before the branch is abandoned.
+    pub ds_min: f64,
+    /// Largest step.
+    pub ds_max: f64,
+    /// Corrector tolerance on max |F|.
+    pub tolerance: f64,
+    /// Point limit per direction.
+    pub max_points: usize,
+}
+
+impl Settings {
+    /// Defaults for a range [lo, hi].
+    pub fn for_range(lo: f64, hi: f64) -> Settings {
+        let w = (hi - lo).abs().max(1e-12);
+        Settings {
+            lo,
+            hi,
+            state_scale: 10.0,
+            param_scale: w / 10.0,
+            ds0: 0.05,
+            ds_min: 1e-7,
+            ds_max: 0.4,
+            tolerance: 1e-10,
+            max_points: 20000,
+        }
+    }
+}
+
+/// One point on a branch.
+#[derive(Clone, Debug)]
+pub struct Point {
+    /// Parameter value.
+    pub p: f64,
+    /// State.
+    pub u: Vec<f64>,
+    /// Unit tangent, state part (weighted norm).
+    pub tu: Vec<f64>,
+    /// Unit tangent, parameter part.
+    pub tp: f64,
+    /// Max |F| at the point.
+    pub residual: f64,
+    /// Unstable modes.
+    pub unstable_modes: usize,
+}
+
+/// A located fold.
+#[derive(Clone, Debug)]
+pub struct FoldPoint {
+    /// The fold itself (tp ≈ 0).
+    pub point: Point,
+    /// Index of the branch point after which the fold lies.
+    pub after: usize,
+}
+
+/// Why a branch direction ended.
+#[derive(Clone, Debug, PartialEq)]
+pub enum EndReason {
+    /// Reached a parameter bound.
+    Bound(f64),
+    /// Corrector failed at the minimum step.
+    StepTooSmall {
+        /// Parameter where it failed.
+        p: f64,
+        /// Residual reached.
+        residual: f64,
+    },
+    /// Point limit reached.
+    PointLimit,
+}
+
+impl std::fmt::Display for EndReason {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            EndReason::Bound(p) => write!(f, "reached the bound {p}"),
+            EndReason::StepTooSmall { p, residual } => {
+                write!(
+                    f,
+                    "corrector failed at the minimum step near p = {p} (max |F| = {residual:e})"
+                )
+            }
+            EndReason::PointLimit => write!(f, "point limit reached"),
+        }
+    }
+}
+
+/// A traced branch, ordered by arclength.
+#[derive(Clone, Debug)]
+pub struct Branch {
+    /// Points in order.
+    pub points: Vec<Point>,
+    /// Folds, in order along the branch.
+    pub folds: Vec<FoldPoint>,
+    /// How each end finished (start end, finish end).
+    pub ends: [EndReason; 2],
+}
+
+/// Workspace: vectors allocated once per branch.
+struct Ws {
+    f: Vec<f64>,
+    fp: Vec<f64>,
+    a: Vec<f64>,
+    b: Vec<f64>,
+    r: Vec<f64>,
+    tmp: Vec<f64>,
+}
+
+impl Ws {
+    fn new(n: usize) -> Ws {
+        Ws {
+            f: vec![0.0; n],
+            fp: vec![0.0; n],
+            a: vec![0.0; n],
+            b: vec![0.0; n],
+            r: vec![0.0; n],
+            tmp: vec![0.0; n],
+        }
+    }
+}
+
+fn max_abs(v: &[f64]) -> f64 {
+    v.iter().fold(
+        0.0f64,
+        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
+    )
+}
+
+/// The tracer: a problem plus settings.
+pub struct Tracer<'a, P: Problem> {
+    /// The problem.
+    pub problem: &'a mut P,
+    /// Settings.
+    pub settings: Settings,
+    wu: f64,
+    wp: f64,
+    ws: Ws,
+}
+
+impl<'a, P: Problem> Tracer<'a, P> {
+    /// A tracer over `problem`.
+    pub fn new(problem: &'a mut P, settings: Settings) -> Self {
+        let n = problem.dim();
+        let wu = 1.0 / (n as f64 * settings.state_scale * settings.state_scale);
+        let wp = 1.0 / (settings.param_scale * settings.param_scale);
+        Tracer {
+            problem,
+            settings,
+            wu,
+            wp,
+            ws: Ws::new(n),
+        }
+    }
+
+    /// Solves the bordered system [J F_p; cᵀ d] [x; y] = [r; s] where
+    /// c = wu t_u, d = wp t_p, after `factor` and `d_param` have filled the
+    /// factors and ws.fp. r is taken from ws.r, x written to ws.a.
+    fn bordered(&mut self, tu: &[f64], tp: f64, s: f64) -> Result<f64, Singular> {
+        let n = tu.len();
+        let (wu, wp) = (self.wu, self.wp);
+        let mut y_total = 0.0;
+        // x accumulates in ws.a; residual-correction loop (2 passes)
+        let ws = &mut self.ws;
+        ws.a.fill(0.0);
+        let mut rhs_s = s;
+        ws.tmp.copy_from_slice(&ws.r);
+        for pass in 0..2 {
+            // b = J⁻¹ F_p, z = J⁻¹ r
+            ws.b.copy_from_slice(&ws.fp);
+            self.problem.solve(&mut ws.b);
+            self.problem.solve(&mut ws.tmp);
+            let c_z: f64 = (0..n).map(|i| wu * tu[i] * ws.tmp[i]).sum();
+            let c_b: f64 = (0..n).map(|i| wu * tu[i] * ws.b[i]).sum();
+            let denom = wp * tp - c_b;
+            if denom == 0.0 || !denom.is_finite() {
+                return Err(Singular { row: n });
+            }
+            let y = (rhs_s - c_z) / denom;
+            for i in 0..n {
+                ws.a[i] += ws.tmp[i] - y * ws.b[i];
+            }
+            y_total += y;
+            if pass == 1 {
+                break;
+            }
+            // residual of the full system: r - J x - F_p y, s - cᵀx - d y
+            self.problem.jac_mul(&ws.a, &mut ws.tmp);
+            for i in 0..n {
+                ws.tmp[i] = ws.r[i] - ws.tmp[i] - ws.fp[i] * y_total;
+            }
+            rhs_s = s - (0..n).map(|i| wu * tu[i] * ws.a[i]).sum::<f64>() - wp * tp * y_total;
+        }
+        Ok(y_total)
+    }
+
+    /// Unit tangent at a solution (u, p), oriented along (tu0, tp0).
+    fn tangent(
+        &mut self,
+        u: &[f64],
+        p: f64,
+        tu0: &[f64],
+        tp0: f64,
+    ) -> Result<(Vec<f64>, f64), Singular> {
+        self.problem.set_param(p);
+        self.problem.factor(u, &mut self.ws.f)?;
+        self.problem.d_param(u, &mut self.ws.fp);
+        self.ws.r.fill(0.0);
+        let y = self.bordered(tu0, tp0, 1.0)?;
+        let mut tu = self.ws.a.clone();
+        let mut tp = y;
+        let norm = (self.wu * tu.iter().map(|x| x * x).sum::<f64>() + self.wp * tp * tp).sqrt();
+        for x in tu.iter_mut() {
+            *x /= norm;
+        }
+        tp /= norm;
+        Ok((tu, tp))
+    }
+
+    /// Corrects a predicted point onto the curve, holding the arclength
+    /// constraint <t, (u, p) - (u_pred, p_pred)>_W = 0. Returns the number of
+    /// iterations and the final residual.
+    fn correct(
+        &mut self,
+        u: &mut [f64],
+        p: &mut f64,
+        tu: &[f64],
+        tp: f64,
+    ) -> Result<(usize, f64), f64> {
+        let n = u.len();
+        let (u_pred, p_pred) = (u.to_vec(), *p);
+        let mut res = f64::INFINITY;
+        for it in 0..10 {
+            self.problem.set_param(*p);
+            if self.problem.factor(u, &mut self.ws.f).is_err() {
+                return Err(res);
+            }
+            res = max_abs(&self.ws.f);
+            let nres: f64 = (0..n)
+                .map(|i| self.wu * tu[i] * (u[i] - u_pred[i]))
+                .sum::<f64>()
+                + self.wp * tp * (*p - p_pred);
+            if !res.is_finite() {
+                return Err(res);
+            }
+            if res < self.settings.tolerance && it > 0 {
+                return Ok((it, res));
+            }
+            self.problem.d_param(u, &mut self.ws.fp);
+            for i in 0..n {
+                self.ws.r[i] = -self.ws.f[i];
+            }
+            let dp = self.bordered(tu, tp, -nres).map_err(|_| res)?;
+            let step = max_abs(&self.ws.a);
+            if !step.is_finite() || step > 20.0 * self.settings.state_scale {
+                return Err(res);
+            }
+            for i in 0..n {
+                u[i] += self.ws.a[i];
+            }
+            *p += dp;
+            if step < 1e-12 * (1.0 + max_abs(u)) && res < 100.0 * self.settings.tolerance {
+                self.problem.set_param(*p);
+                self.problem.residual(u, &mut self.ws.f);
+                return Ok((it + 1, max_abs(&self.ws.f)));
+            }
+        }
+        Err(res)
+    }
+
+    fn make_point(&mut self, u: Vec<f64>, p: f64, tu: Vec<f64>, tp: f64, residual: f64) -> Point {
+        self.problem.set_param(p);
+        let unstable_modes = self.problem.unstable_modes(&u);
+        Point {
+            p,
+            u,
+            tu,
+            tp,
+            residual,
+            unstable_modes,
+        }
+    }
+
+    /// Solves F(u, p) = 0 at fixed p by Newton from u (for landing on a bound).
+    fn newton_at(&mut self, u: &mut [f64], p: f64) -> Option<f64> {
+        self.problem.set_param(p);
+        for _ in 0..30 {
+            if self.problem.factor(u, &mut self.ws.f).is_err() {
+                return None;
+            }
+            let res = max_abs(&self.ws.f);
+            if res < self.settings.tolerance {
+                return Some(res);
+            }
+            self.ws.a.copy_from_slice(&self.ws.f);
+            self.problem.solve(&mut self.ws.a);
+            let step = max_abs(&self.ws.a);
+            if !step.is_finite() || step > 20.0 * self.settings.state_scale {
+                return None;
+            }
+            for i in 0..u.len() {
+                u[i] -= self.ws.a[i];
+            }
+            if step < 1e-12 * (1.0 + max_abs(u)) && res < 100.0 * self.settings.tolerance {
+                return Some(res);
+            }
+        }
+        None
+    }
+
+    /// Traces from a solution (u0, p0) in one direction (`sign` = ±1 along
+    /// increasing p at the start). Returns the points after the start and
+    /// why it ended.
+    fn trace_direction(&mut self, start: &Point, sign: f64) -> (Vec<Point>, EndReason) {
+        let s = self.settings;
+        let mut pts: Vec<Point> = Vec::new();
+        let mut cur = start.clone();
+        if sign < 0.0 {
+            cur.tu.iter_mut().for_each(|x| *x = -*x);
+            cur.tp = -cur.tp;
+        }
+        let mut ds = s.ds0;
+        loop {
+            if pts.len() >= s.max_points {
+                return (pts, EndReason::PointLimit);
+            }
+            let mut u: Vec<f64> = cur.u.iter().zip(&cur.tu).map(|(u, t)| u + ds * t).collect();
+            let mut p = cur.p + ds * cur.tp;
+            // Beyond a bound: land exactly on it.
+            if p > s.hi || p < s.lo {
+                let bound = if p > s.hi { s.hi } else { s.lo };
+                let frac = (bound - cur.p) / (p - cur.p);
+                let mut ub: Vec<f64> = cur
+                    .u
+                    .iter()
+                    .zip(&u)
+                    .map(|(a, b)| a + frac * (b - a))
+                    .collect();
+                if let Some(res) = self.newton_at(&mut ub, bound) {
+                    let (tu, tp) = match self.tangent(&ub, bound, &cur.tu, cur.tp) {
+                        Ok(t) => t,
+                        Err(_) => (cur.tu.clone(), cur.tp),
+                    };
+                    let pt = self.make_point(ub, bound, tu, tp, res);
+                    pts.push(pt);
+                    return (pts, EndReason::Bound(bound));
+                }
+                if ds > s.ds_min {
+                    ds *= 0.5;
+                    continue;
+                }
+                return (pts, EndReason::Bound(bound));
+            }
+            match self.correct(&mut u, &mut p, &cur.tu, cur.tp) {
+                Ok((iters, res)) if p >= s.lo - 1e-12 && p <= s.hi + 1e-12 => {
+                    let Ok((tu, tp)) = self.tangent(&u, p, &cur.tu, cur.tp) else {
+                        ds *= 0.5;
+                        if ds < s.ds_min {
+                            return (pts, EndReason::StepTooSmall { p, residual: res });
+                        }
+                        continue;
+                    };
+                    // Reject steps that turn the tangent too sharply.
+                    let dot = self.wu * tu.iter().zip(&cur.tu).map(|(a, b)| a * b).sum::<f64>()
+                        + self.wp * tp * cur.tp;
+                    if dot < 0.9 && ds > s.ds_min * 4.0 {
+                        ds *= 0.5;
+                        continue;
+                    }
+                    if ds > 1e-6 && self.problem.label(&u) != self.problem.label(&cur.u) {
+                        ds *= 0.25;
+                        continue;
+                    }
+                    let pt = self.make_point(u, p, tu, tp, res);
+                    cur = pt.clone();
+                    pts.push(pt);
+                    if iters <= 3 {
+                        ds = (ds * 1.5).min(s.ds_max);
+                    } else if iters > 5 {
+                        ds *= 0.7;
+                    }
+                }
+                Ok(_) => {
+                    ds *= 0.5;
+                    if ds < s.ds_min {
+                        return (pts, EndReason::Bound(if p > s.hi { s.hi } else { s.lo }));
+                    }
+                }
+                Err(res) => {
+                    ds *= 0.5;
+                    if ds < s.ds_min {
+                        return (
+                            pts,
+                            EndReason::StepTooSmall {
+                                p: cur.p,
+                                residual: res,
+                            },
+                        );
+                    }
+                }
+            }
+        }
+    }
+
+    /// Refines the fold between branch points a and b (t_p changes sign):
+    /// secant iterations on t_p(σ) = 0, where σ is the arclength from a and
+    /// each trial point is predicted from a and fully corrected.
+    fn refine_fold(&mut self, a: &Point, b: &Point) -> Option<Point> {
+        // arclength between a and b
+        let n = a.u.len();
+        let dist = (self.wu * (0..n).map(|i| (b.u[i] - a.u[i]).powi(2)).sum::<f64>()
+            + self.wp * (b.p - a.p).powi(2))
+        .sqrt();
+        let mut s0 = 0.0;
+        let mut f0 = a.tp;
+        let mut s1 = dist;
+        let mut f1 = b.tp;
+        let mut best: Option<Point> = None;
+        for _ in 0..60 {
+            let denom = f1 - f0;
+            let mut s = if denom != 0.0 {
+                s1 - f1 * (s1 - s0) / denom
+            } else {
+                0.5 * (s0 + s1)
+            };
+            let (lo, hi) = (s0.min(s1), s0.max(s1));
+            if !(s > lo && s < hi) || !s.is_finite() {
+                s = 0.5 * (s0 + s1);
+            }
+            let mut u: Vec<f64> = a.u.iter().zip(&a.tu).map(|(u, t)| u + s * t).collect();
+            let mut p = a.p + s * a.tp;
+            let (_, res) = self.correct(&mut u, &mut p, &a.tu, a.tp).ok()?;
+            let (tu, tp) = self.tangent(&u, p, &a.tu, a.tp).ok()?;
+            let pt = Point {
+                p,
+                u,
+                tu,
+                tp,
+                residual: res,
+                unstable_modes: 0,
+            };
+            let done = tp.abs() < 1e-13 || (s1 - s0).abs() < 1e-14;
+            // keep the bracket (regula falsi with the Illinois modification)
+            if (tp > 0.0) == (f1 > 0.0) {
+                f0 *= 0.5;
+            } else {
+                s0 = s1;
+                f0 = f1;
+            }
+            s1 = s;
+            f1 = tp;
+            best = Some(pt);
+            if done {
+                break;
+            }
+        }
+        let pt = best?;
+        Some(self.make_point(pt.u, pt.p, pt.tu, pt.tp, pt.residual))
+    }
+
+    /// Traces the whole branch through the solution (u0, p0) in both
+    /// directions and locates its folds.
+    pub fn trace(&mut self, u0: &[f64], p0: f64) -> Result<Branch, Singular> {
+        let n = u0.len();
+        // initial tangent: orient towards increasing p
+        let e_u = vec![0.0; n];
+        let (tu, tp) = self.tangent(u0, p0, &e_u, 1.0)?;
+        let (tu, tp) = if tp < 0.0 {
+            (tu.iter().map(|x| -x).collect(), -tp)
+        } else {
+            (tu, tp)
+        };
+        self.problem.set_param(p0);
+        self.problem.residual(u0, &mut self.ws.f);
+        let res0 = max_abs(&self.ws.f);
+        let start = self.make_point(u0.to_vec(), p0, tu, tp, res0);
+        let (fwd, end_fwd) = self.trace_direction(&start, 1.0);
+        let (bwd, end_bwd) = self.trace_direction(&start, -1.0);
+        let mut points: Vec<Point> = bwd.into_iter().rev().collect();
+        // backward tangents point the other way; re-orient to the branch direction
+        for p in points.iter_mut() {
+            p.tu.iter_mut().for_each(|x| *x = -*x);
+            p.tp = -p.tp;
+        }
+        points.push(start);
+        points.extend(fwd);
+        let mut folds = Vec::new();
+        for k in 0..points.len().saturating_sub(1) {
+            let (a, b) = (&points[k], &points[k + 1]);
+            if a.tp == 0.0 || (a.tp > 0.0) != (b.tp > 0.0) {
+                let (a, b) = (a.clone(), b.clone());
+                if let Some(f) = self.refine_fold(&a, &b) {
+                    folds.push(FoldPoint { point: f, after: k });
+                }
+            }
+        }
+        Ok(Branch {
+            points,
+            folds,
+            ends: [end_bwd, end_fwd],
+        })
+    }
+}
