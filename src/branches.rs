@@ -190,6 +190,7 @@ fn on_branch(b: &Branch, u: &[f64], p: f64, scale: f64) -> bool {
 
 /// Traces every branch of `model` in `param` over [lo, hi].
 /// `progress` is called with a short message as work proceeds.
+#[allow(clippy::too_many_arguments)]
 pub fn trace_all(
     model: &Model,
     param: Param,

@@ -93,10 +93,8 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     }
     for b in &h.branches {
         for e in &b.ends {
-            if let crate::continuation::EndReason::StepTooSmall { .. } = e {
-                if !quiet {
-                    eprintln!("trace: branch {} ended early: {e}", b.id);
-                }
+            if matches!(e, crate::continuation::EndReason::StepTooSmall { .. }) && !quiet {
+                eprintln!("trace: branch {} ended early: {e}", b.id);
             }
         }
     }

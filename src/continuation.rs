@@ -486,7 +486,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
                 0.5 * (s0 + s1)
             };
             let (lo, hi) = (s0.min(s1), s0.max(s1));
-            if !(s > lo && s < hi) || !s.is_finite() {
+            if s <= lo || s >= hi || !s.is_finite() {
                 s = 0.5 * (s0 + s1);
             }
             let mut u: Vec<f64> = a.u.iter().zip(&a.tu).map(|(u, t)| u + s * t).collect();
