@@ -9,7 +9,9 @@ use icefold::solve::{NewtonOptions, Workspace, implicit_step, newton};
 use std::time::Instant;
 
 fn model(bands: usize) -> Model {
-    Scenario::load(None, &[format!("grid.bands={bands}")]).unwrap().model()
+    Scenario::load(None, &[format!("grid.bands={bands}")])
+        .unwrap()
+        .model()
 }
 
 fn time<T>(reps: usize, mut f: impl FnMut() -> T) -> (f64, T) {
@@ -32,10 +34,16 @@ fn main() {
             newton(&m, &mut t, &NewtonOptions::default(), &mut ws).unwrap()
         });
         let b = *base.get_or_insert(secs);
-        println!("solve/bands={bands}: {:.3} ms, {iters} Newton iterations, {:.1}x the 90-band time", secs * 1e3, secs / b);
+        println!(
+            "solve/bands={bands}: {:.3} ms, {iters} Newton iterations, {:.1}x the 90-band time",
+            secs * 1e3,
+            secs / b
+        );
     }
 
-    println!("\n== Newton versus implicit time stepping to the same equilibrium (1e-6 K), 90 bands");
+    println!(
+        "\n== Newton versus implicit time stepping to the same equilibrium (1e-6 K), 90 bands"
+    );
     let m = model(90);
     let mut ws = Workspace::new(&m);
     let mut t_eq = vec![30.0; 90];
@@ -68,16 +76,37 @@ fn main() {
     for bands in [90, 360, 1440] {
         let m = model(bands);
         let (lo, hi) = (0.8 * 1337.6, 1.15 * 1337.6);
-        let (secs, h) = time(3, || trace_all(&m, Param::Flux, lo, hi, 30.0, -60.0, &TraceOptions::default(), &mut |_| {}));
-        let folds: Vec<f64> = h.branches.iter().flat_map(|b| b.folds.iter().map(|f| f.point.p)).collect();
+        let (secs, h) = time(3, || {
+            trace_all(
+                &m,
+                Param::Flux,
+                lo,
+                hi,
+                30.0,
+                -60.0,
+                &TraceOptions::default(),
+                &mut |_| {},
+            )
+        });
+        let folds: Vec<f64> = h
+            .branches
+            .iter()
+            .flat_map(|b| b.folds.iter().map(|f| f.point.p))
+            .collect();
         let b = *base.get_or_insert(secs);
-        println!("trace/bands={bands}: {:.1} ms ({:.1}x the 90-band time), folds at {folds:?}", secs * 1e3, secs / b);
+        println!(
+            "trace/bands={bands}: {:.1} ms ({:.1}x the 90-band time), folds at {folds:?}",
+            secs * 1e3,
+            secs / b
+        );
         if bands == 90 {
             trace90 = (secs, folds.iter().copied().fold(f64::INFINITY, f64::min));
         }
     }
 
-    println!("\n== the ramp: flux down then up in 0.5 W m-2 steps, each time-stepped to 1e-4 K per year (90 bands)");
+    println!(
+        "\n== the ramp: flux down then up in 0.5 W m-2 steps, each time-stepped to 1e-4 K per year (90 bands)"
+    );
     let mut m = model(90);
     let (lo, hi) = (0.8 * 1337.6, 1.15 * 1337.6);
     let t0 = Instant::now();

@@ -574,6 +574,13 @@ impl Scenario {
                 allowed: "-1 to 2 (insolation must stay non-negative)".into(),
             });
         }
+        if self.flag("seasons.enabled") {
+            return Err(ScenarioError::OutOfRange {
+                key: "seasons.enabled".into(),
+                value: "true".into(),
+                allowed: "false (the seasonal model is not built yet; seasons.* keys other than enabled set the heat capacity)".into(),
+            });
+        }
         if self.int("grid.bands") < 4 {
             return Err(ScenarioError::OutOfRange {
                 key: "grid.bands".into(),

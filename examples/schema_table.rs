@@ -1,0 +1,3 @@
+fn main() {
+    print!("{}", icefold::scenario::Scenario::schema_markdown());
+}
