@@ -6,8 +6,10 @@
 //! Each step predicts along the unit tangent t = (t_u, t_p) and corrects with
 //! Newton on the bordered system
 //!
-//! [ J    F_p ] [δu]   [ -F ]
-//! [ t_uᵀW t_p W_p ] [δp] = [ -N ],   N = <t, (u, p) - predicted>_W,
+//! ```text
+//! [ J       F_p    ] [du]   [ -F ]
+//! [ W t_uᵀ  W_p t_p ] [dp] = [ -N ],   N = <t, (u, p) - predicted>_W,
+//! ```
 //!
 //! solved by block elimination over the problem's own O(n) solver
 //! (a = J⁻¹F, b = J⁻¹F_p) with one step of iterative refinement, which
