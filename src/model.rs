@@ -292,6 +292,31 @@ impl Model {
         self.rebuild_albedo();
     }
 
+    /// The x positions at which the model samples insolation: for each
+    /// half-band k (band i has halves 2i and 2i + 1) its low end, middle and
+    /// high end. Used to feed instantaneous (daily) insolation.
+    pub fn insolation_sample_points(&self) -> Vec<[f64; 3]> {
+        self.half.iter().map(|h| [h.lo, 0.5 * (h.lo + h.hi), h.hi]).collect()
+    }
+
+    /// Replaces the insolation the model absorbs by `samples` (per unit flux
+    /// S/S0, at [`Model::insolation_sample_points`]), e.g. the daily-mean
+    /// insolation of one time step of the seasonal cycle, and rebuilds the
+    /// band integrals. O(bands); allocates nothing. A later change of an
+    /// insolation parameter (obliquity, eccentricity, p2) restores the
+    /// annual mean.
+    pub fn set_unit_insolation(&mut self, samples: &[[f64; 3]]) {
+        for (h, s) in self.half.iter_mut().zip(samples) {
+            h.s = *s;
+        }
+        self.rebuild_albedo();
+    }
+
+    /// Restores the annual-mean insolation of the planet's orbit.
+    pub fn restore_annual_insolation(&mut self) {
+        self.rebuild_insolation();
+    }
+
     fn rebuild_albedo(&mut self) {
         for k in 0..self.half.len() {
             let (lo, hi) = (self.half[k].lo, self.half[k].hi);
