@@ -6,7 +6,7 @@ use crate::climate::{Diagnostics, State, diagnose, find_equilibria, standard_sta
 use crate::continuation::{Branch, EndReason, Problem, Settings, Tracer};
 use crate::linalg::{Singular, Tridiagonal};
 use crate::model::{Model, Param};
-use crate::solve::{NewtonOptions, Workspace, newton, spin_up, unstable_modes};
+use crate::solve::{NewtonOptions, Workspace, unstable_modes};
 
 /// The annual-mean model as a continuation problem in one parameter.
 pub struct AnnualProblem {
@@ -92,6 +92,9 @@ pub struct Fold {
     pub point: TracedPoint,
     /// Index of the branch point after which it lies.
     pub after: usize,
+    /// The stable climate that ends at the fold (the state of the stable
+    /// neighbour on the branch; the fold's own state if neither is stable).
+    pub from_state: State,
     /// The stable climate reached when the parameter passes the fold, if
     /// the fold bounds a stable segment.
     pub jump_to: Option<TracedPoint>,
@@ -266,20 +269,11 @@ pub fn trace_all(
                 f.point.unstable_modes,
                 f.point.residual,
             );
-            let jump_to = jump_from(
-                &m,
-                param,
-                &b,
-                f.after,
-                &f.point.u,
-                f.point.p,
-                (hi - lo).abs(),
-                &nopts,
-            );
             folds.push(Fold {
                 point: fp,
                 after: f.after,
-                jump_to,
+                from_state: State::Other,
+                jump_to: None,
             });
         }
         branches.push(TracedBranch {
@@ -289,6 +283,7 @@ pub fn trace_all(
             ends: b.ends.clone(),
         });
     }
+    resolve_jumps(&mut branches, (hi - lo).abs());
     let bistable = bistable_windows(&branches, lo, hi);
     Hysteresis {
         param,
@@ -299,42 +294,79 @@ pub fn trace_all(
     }
 }
 
-/// Where the climate goes when the parameter moves past the fold: the
-/// fold state is time-stepped (implicit, 1-year steps) at a parameter just
-/// beyond the fold, then Newton polishes the end state.
-#[allow(clippy::too_many_arguments)]
-fn jump_from(
-    model: &Model,
-    param: Param,
-    b: &Branch,
-    after: usize,
-    u: &[f64],
-    p: f64,
-    width: f64,
-    nopts: &NewtonOptions,
-) -> Option<TracedPoint> {
-    // the branch exists on the side of its neighbours; beyond is the other side
-    let neighbour = b.points.get(after)?.p;
-    let beyond = if neighbour > p { -1.0 } else { 1.0 };
-    let mut m = model.clone();
-    let pj = p + beyond * 1e-4 * width;
-    let (lo, hi) = param.range();
-    if pj < lo || pj > hi {
-        return None;
+/// For every fold: the stable climate that ends there (`from_state`: the
+/// nearest stable point along the branch within three points) and where the
+/// climate goes when the parameter moves just past it (`jump_to`). The jump
+/// follows the trend of the vanishing stable segment: if its global mean
+/// falls as the parameter moves towards the fold, the planet cools past it
+/// and lands on the warmest stable climate colder than the fold; otherwise
+/// on the coldest stable climate warmer than it. Candidates are the stable
+/// segments of every traced branch at 1e-3 of the range beyond the fold,
+/// interpolated linearly between their points.
+pub fn resolve_jumps(branches: &mut [TracedBranch], width: f64) {
+    let snapshot: Vec<TracedBranch> = branches.to_vec();
+    for b in branches.iter_mut() {
+        for f in b.folds.iter_mut() {
+            let k = f.after;
+            let near = (0..=3)
+                .flat_map(|d| [k.checked_sub(d), Some(k + 1 + d)])
+                .flatten()
+                .filter_map(|j| b.points.get(j))
+                .find(|q| q.unstable_modes == 0);
+            f.from_state = near.map_or(f.point.diagnostics.state, |q| q.diagnostics.state);
+            let Some(nb) = near else {
+                continue;
+            };
+            let beyond = if nb.p > f.point.p { -1.0 } else { 1.0 };
+            let pj = f.point.p + beyond * 1e-3 * width;
+            let trend = (nb.diagnostics.global_mean_c - f.point.diagnostics.global_mean_c)
+                / (nb.p - f.point.p);
+            let cooling = trend * beyond < 0.0;
+            let t_fold = f.point.diagnostics.global_mean_c;
+            let mut best: Option<TracedPoint> = None;
+            for other in &snapshot {
+                for w in other.points.windows(2) {
+                    let (q1, q2) = (&w[0], &w[1]);
+                    if q1.unstable_modes != 0 || q2.unstable_modes != 0 {
+                        continue;
+                    }
+                    let (lo, hi) = (q1.p.min(q2.p), q1.p.max(q2.p));
+                    if pj < lo || pj > hi || hi == lo {
+                        continue;
+                    }
+                    let r = (pj - q1.p) / (q2.p - q1.p);
+                    let mut cand = if r < 0.5 { q1.clone() } else { q2.clone() };
+                    cand.p = pj;
+                    for (c, (a, z)) in cand
+                        .temperature
+                        .iter_mut()
+                        .zip(q1.temperature.iter().zip(&q2.temperature))
+                    {
+                        *c = a + r * (z - a);
+                    }
+                    let g = |q: &TracedPoint| q.diagnostics.global_mean_c;
+                    cand.diagnostics.global_mean_c = g(q1) + r * (g(q2) - g(q1));
+                    let (e1, e2) = (
+                        poleward_edge_deg(&q1.diagnostics),
+                        poleward_edge_deg(&q2.diagnostics),
+                    );
+                    let e = e1 + r * (e2 - e1);
+                    cand.diagnostics.ice_edges_deg =
+                        if e > 0.0 && e < 90.0 { vec![e] } else { vec![] };
+                    let t = cand.diagnostics.global_mean_c;
+                    let ok = if cooling { t < t_fold } else { t > t_fold };
+                    let better = best.as_ref().is_none_or(|bst| {
+                        let tb = bst.diagnostics.global_mean_c;
+                        if cooling { t > tb } else { t < tb }
+                    });
+                    if ok && better {
+                        best = Some(cand);
+                    }
+                }
+            }
+            f.jump_to = best;
+        }
     }
-    m.set_param(param, pj);
-    let mut t = u.to_vec();
-    let mut ws = Workspace::new(&m);
-    spin_up(&m, &mut t, 1.0, 1e-7, 20000, &mut ws).ok()?;
-    newton(&m, &mut t, nopts, &mut ws).ok()?;
-    let modes = unstable_modes(&m, &t, &mut ws);
-    if modes != 0 {
-        return None;
-    }
-    let mut f = vec![0.0; m.len()];
-    m.evaluate(&t, &mut f, None);
-    let res = f.iter().fold(0.0f64, |a, x| a.max(x.abs()));
-    Some(traced(&m, pj, t, 0, res))
 }
 
 /// Parameter intervals covered by two or more stable segments.

@@ -167,7 +167,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
                 f.point.p,
                 poleward_edge_deg(d),
                 d.global_mean_c,
-                d.state.label(),
+                f.from_state.label(),
                 f.jump_to
                     .as_ref()
                     .map_or("none", |j| j.diagnostics.state.label())
@@ -231,7 +231,7 @@ fn folds_table(h: &Hysteresis) -> Table {
                 Cell::Num(d.global_mean_c),
                 Cell::Num(d.ice_area_fraction),
                 Cell::Num(poleward_edge_deg(d)),
-                Cell::Text(d.state.label().into()),
+                Cell::Text(f.from_state.label().into()),
                 Cell::Text(
                     f.jump_to
                         .as_ref()
@@ -256,7 +256,7 @@ fn folds_json(h: &Hysteresis) -> serde_json::Value {
                 "ice_area_fraction": d.ice_area_fraction,
                 "ice_edge_deg": poleward_edge_deg(d),
                 "residual_wm2": f.point.residual,
-                "from_state": d.state.label(),
+                "from_state": f.from_state.label(),
                 "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
                 "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
             }));

@@ -451,6 +451,17 @@ impl<'a, P: Problem> Tracer<'a, P> {
                     }
                 }
                 Err(res) => {
+                    // A kink of the residual (e.g. an ice cap appearing at
+                    // the pole) can turn the branch sharply: cross it
+                    // explicitly before giving up.
+                    if ds < 1e-3 {
+                        if let Some(next) = self.cross_corner(&cur, ds.max(1e-5)) {
+                            cur = next.clone();
+                            pts.push(next);
+                            ds = 1e-3;
+                            continue;
+                        }
+                    }
                     ds *= 0.5;
                     if ds < s.ds_min {
                         return (
@@ -466,55 +477,143 @@ impl<'a, P: Problem> Tracer<'a, P> {
         }
     }
 
+    /// Crosses a kink of the residual ahead of `cur`: locates where the
+    /// discrete label changes along the predictor, takes the tangent from
+    /// the Jacobian on the far side, and corrects a first point there, in
+    /// whichever orientation leads onto the far side. Returns that point.
+    fn cross_corner(&mut self, cur: &Point, ds: f64) -> Option<Point> {
+        let n = cur.u.len();
+        let at = |s: f64| -> (Vec<f64>, f64) {
+            (
+                cur.u.iter().zip(&cur.tu).map(|(u, t)| u + s * t).collect(),
+                cur.p + s * cur.tp,
+            )
+        };
+        let label0 = self.problem.label(&cur.u);
+        // find a label change along the predictor within 64 ds
+        let mut hi = ds;
+        let mut found = false;
+        for _ in 0..7 {
+            let (u, _) = at(hi);
+            if self.problem.label(&u) != label0 {
+                found = true;
+                break;
+            }
+            hi *= 2.0;
+        }
+        if !found {
+            return None;
+        }
+        let mut lo = 0.0;
+        for _ in 0..40 {
+            let mid = 0.5 * (lo + hi);
+            let (u, _) = at(mid);
+            if self.problem.label(&u) == label0 {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        let (u_far, p_far) = at(hi + 1e-9);
+        let label_far = self.problem.label(&u_far);
+        let (t2u, t2p) = self.tangent(&u_far, p_far, &cur.tu, cur.tp).ok()?;
+        for orient in [1.0, -1.0] {
+            let tu: Vec<f64> = t2u.iter().map(|x| orient * x).collect();
+            let tp = orient * t2p;
+            let mut h = 1e-5;
+            while h <= 1e-2 {
+                let mut u: Vec<f64> = u_far.iter().zip(&tu).map(|(a, t)| a + h * t).collect();
+                let mut p = p_far + h * tp;
+                if p >= self.settings.lo && p <= self.settings.hi {
+                    if let Ok((_, res)) = self.correct(&mut u, &mut p, &tu, tp) {
+                        let moved = (0..n).map(|i| (u[i] - cur.u[i]).abs()).fold(0.0, f64::max);
+                        if self.problem.label(&u) == label_far && moved > 0.0 {
+                            let (ntu, ntp) = self.tangent(&u, p, &tu, tp).ok()?;
+                            return Some(self.make_point(u, p, ntu, ntp, res));
+                        }
+                    }
+                }
+                h *= 4.0;
+            }
+        }
+        None
+    }
+
     /// Refines the fold between branch points a and b (t_p changes sign):
-    /// secant iterations on t_p(σ) = 0, where σ is the arclength from a and
-    /// each trial point is predicted from a and fully corrected.
+    /// regula falsi on t_p(σ) = 0, σ the arclength from a, every trial point
+    /// predicted from a and fully corrected. Where the turn happens at a
+    /// kink (the trial fails or lands on another discrete label), the
+    /// bracket shrinks onto the kink instead, and the fold reported is the
+    /// converged point closest to it on a's side: a corner fold.
     fn refine_fold(&mut self, a: &Point, b: &Point) -> Option<Point> {
-        // arclength between a and b
         let n = a.u.len();
         let dist = (self.wu * (0..n).map(|i| (b.u[i] - a.u[i]).powi(2)).sum::<f64>()
             + self.wp * (b.p - a.p).powi(2))
         .sqrt();
-        let mut s0 = 0.0;
-        let mut f0 = a.tp;
-        let mut s1 = dist;
-        let mut f1 = b.tp;
+        let label_a = self.problem.label(&a.u);
+        let (mut lo, mut hi) = (0.0, dist);
+        let (mut f_lo, mut f_hi) = (a.tp, b.tp);
         let mut best: Option<Point> = None;
-        for _ in 0..60 {
-            let denom = f1 - f0;
-            let mut s = if denom != 0.0 {
-                s1 - f1 * (s1 - s0) / denom
+        let mut side = 0i32;
+        for _ in 0..100 {
+            let mut s = if f_hi.is_finite() && f_lo != f_hi {
+                lo + f_lo * (hi - lo) / (f_lo - f_hi)
             } else {
-                0.5 * (s0 + s1)
+                0.5 * (lo + hi)
             };
-            let (lo, hi) = (s0.min(s1), s0.max(s1));
             if s <= lo || s >= hi || !s.is_finite() {
-                s = 0.5 * (s0 + s1);
+                s = 0.5 * (lo + hi);
             }
             let mut u: Vec<f64> = a.u.iter().zip(&a.tu).map(|(u, t)| u + s * t).collect();
             let mut p = a.p + s * a.tp;
-            let (_, res) = self.correct(&mut u, &mut p, &a.tu, a.tp).ok()?;
-            let (tu, tp) = self.tangent(&u, p, &a.tu, a.tp).ok()?;
-            let pt = Point {
-                p,
-                u,
-                tu,
-                tp,
-                residual: res,
-                unstable_modes: 0,
+            let trial = match self.correct(&mut u, &mut p, &a.tu, a.tp) {
+                Ok((_, res)) if self.problem.label(&u) == label_a => {
+                    self.tangent(&u, p, &a.tu, a.tp).ok().map(|(tu, tp)| Point {
+                        p,
+                        u,
+                        tu,
+                        tp,
+                        residual: res,
+                        unstable_modes: 0,
+                    })
+                }
+                _ => None,
             };
-            let done = tp.abs() < 1e-13 || (s1 - s0).abs() < 1e-14;
-            // keep the bracket (regula falsi with the Illinois modification)
-            if (tp > 0.0) == (f1 > 0.0) {
-                f0 *= 0.5;
-            } else {
-                s0 = s1;
-                f0 = f1;
+            match trial {
+                None => {
+                    hi = s;
+                    f_hi = f64::NAN;
+                }
+                Some(pt) => {
+                    let tp = pt.tp;
+                    if (tp > 0.0) == (f_lo > 0.0) {
+                        lo = s;
+                        // Illinois modification keeps regula falsi superlinear
+                        if side == -1 && f_hi.is_finite() {
+                            f_hi *= 0.5;
+                        }
+                        f_lo = tp;
+                        side = -1;
+                    } else {
+                        hi = s;
+                        if side == 1 {
+                            f_lo *= 0.5;
+                        }
+                        f_hi = tp;
+                        side = 1;
+                    }
+                    let better = best
+                        .as_ref()
+                        .is_none_or(|q| tp.abs() <= q.tp.abs() || !f_hi.is_finite());
+                    if better {
+                        best = Some(pt);
+                    }
+                    if tp.abs() < 1e-13 {
+                        break;
+                    }
+                }
             }
-            s1 = s;
-            f1 = tp;
-            best = Some(pt);
-            if done {
+            if hi - lo < 1e-14 * dist.max(1e-300) {
                 break;
             }
         }

@@ -296,7 +296,10 @@ impl Model {
     /// half-band k (band i has halves 2i and 2i + 1) its low end, middle and
     /// high end. Used to feed instantaneous (daily) insolation.
     pub fn insolation_sample_points(&self) -> Vec<[f64; 3]> {
-        self.half.iter().map(|h| [h.lo, 0.5 * (h.lo + h.hi), h.hi]).collect()
+        self.half
+            .iter()
+            .map(|h| [h.lo, 0.5 * (h.lo + h.hi), h.hi])
+            .collect()
     }
 
     /// Replaces the insolation the model absorbs by `samples` (per unit flux
@@ -374,10 +377,28 @@ impl Model {
     }
 
     /// The band pair whose linear profile covers half-band k.
+    ///
+    /// Interior half-bands interpolate between neighbouring centres; the
+    /// outermost half-bands extrapolate the nearest segment. On a full grid
+    /// with an even number of bands the equator is a face, and by symmetry
+    /// the two centres beside it have equal temperatures: interpolating
+    /// between them would make the whole segment freeze at once when an
+    /// equatorial belt forms. So the two half-bands touching the equator
+    /// extrapolate from their own side instead, giving a V (or Λ) at the
+    /// equator and an ice belt that grows continuously.
     #[inline]
     fn segment(&self, k: usize) -> (usize, usize) {
         let n = self.len();
         let i = k / 2;
+        if !self.grid.symmetric && n.is_multiple_of(2) && n >= 4 {
+            let c = n / 2;
+            if k == 2 * (c - 1) + 1 {
+                return (c - 2, c - 1);
+            }
+            if k == 2 * c {
+                return (c, c + 1);
+            }
+        }
         if k.is_multiple_of(2) {
             if i == 0 { (0, 1) } else { (i - 1, i) }
         } else if i + 1 == n {
@@ -755,7 +776,11 @@ impl Model {
             if k == 0 {
                 first = lo_ice;
             }
+            // count rising edges of the ice indicator along x
             if lo_ice && !prev_ice {
+                intervals += 1;
+            }
+            if hi_ice && !lo_ice {
                 intervals += 1;
             }
             prev_ice = hi_ice;
