@@ -2,11 +2,11 @@
 //! seeds from several starts and parameter values, continuation of each
 //! distinct branch, folds with the jump they cause, and bistable windows.
 
-use crate::climate::{Diagnostics, State, diagnose, find_equilibria, standard_starts};
+use crate::climate::{Diagnostics, Start, State, diagnose, standard_starts};
 use crate::continuation::{Branch, EndReason, Problem, Settings, Tracer};
 use crate::linalg::{Singular, Tridiagonal};
 use crate::model::{Model, Param};
-use crate::solve::{NewtonOptions, Workspace, unstable_modes};
+use crate::solve::{NewtonOptions, Workspace, newton, unstable_modes};
 
 /// The annual-mean model as a continuation problem in one parameter.
 pub struct AnnualProblem {
@@ -164,30 +164,36 @@ pub struct TraceOptions {
 impl Default for TraceOptions {
     fn default() -> Self {
         TraceOptions {
-            seed_values: 5,
+            seed_values: 9,
             tolerance: 1e-10,
         }
     }
 }
 
+/// Whether (u, p) lies on the traced branch: within 0.25 K (every band) and
+/// 1e-3 of the range of its projection onto some chord between consecutive
+/// points (projection in the arclength metric, so chords across folds,
+/// where p hardly changes, work too).
 fn on_branch(b: &Branch, u: &[f64], p: f64, scale: f64) -> bool {
-    // near any point, or near the chord between consecutive points
+    let n = u.len() as f64;
+    let wp = 100.0 / (scale * scale);
     b.points.windows(2).any(|w| {
         let (a, c) = (&w[0], &w[1]);
-        let (lo, hi) = (a.p.min(c.p), a.p.max(c.p));
-        if p < lo - 1e-9 * scale || p > hi + 1e-9 * scale {
-            return false;
+        let mut num = wp * (p - a.p) * (c.p - a.p);
+        let mut den = wp * (c.p - a.p) * (c.p - a.p);
+        for ((x, ua), uc) in u.iter().zip(&a.u).zip(&c.u) {
+            num += (x - ua) * (uc - ua) / n;
+            den += (uc - ua) * (uc - ua) / n;
         }
-        let f = if (c.p - a.p).abs() > 0.0 {
-            (p - a.p) / (c.p - a.p)
+        let t = if den > 0.0 {
+            (num / den).clamp(0.0, 1.0)
         } else {
             0.0
         };
-        u.iter()
-            .zip(a.u.iter().zip(&c.u))
-            .all(|(x, (ua, uc))| (x - (ua + f * (uc - ua))).abs() < 0.5)
-    }) || b.points.iter().any(|q| {
-        (q.p - p).abs() < 1e-9 * scale && q.u.iter().zip(u).all(|(a, b)| (a - b).abs() < 1e-6)
+        (p - (a.p + t * (c.p - a.p))).abs() < 1e-3 * scale
+            && u.iter()
+                .zip(a.u.iter().zip(&c.u))
+                .all(|(x, (ua, uc))| (x - (ua + t * (uc - ua))).abs() < 0.25)
     })
 }
 
@@ -216,9 +222,38 @@ pub fn trace_all(
         let p = lo + (hi - lo) * j as f64 / (k - 1) as f64;
         let mut m = model.clone();
         m.set_param(param, p);
-        let search = find_equilibria(&m, &standard_starts(m.len(), warm, cold), &nopts);
-        for e in search.equilibria {
-            seeds.push((p, e.temperature));
+        let mut starts = standard_starts(m.len(), warm, cold);
+        // two shaped starts that fall into ice-cap and ice-belt basins
+        let mid = 0.5 * (warm + cold);
+        starts.push(Start {
+            label: "caps".into(),
+            temperature: m
+                .grid
+                .centres
+                .iter()
+                .map(|x| warm - (warm - mid) * 2.0 * x * x)
+                .collect(),
+        });
+        starts.push(Start {
+            label: "belt".into(),
+            temperature: m
+                .grid
+                .centres
+                .iter()
+                .map(|x| mid + (warm - mid) * 2.0 * x * x)
+                .collect(),
+        });
+        // plain Newton: a start that does not converge is simply no seed
+        let mut ws = Workspace::new(&m);
+        for st in &starts {
+            let mut t = st.temperature.clone();
+            if newton(&m, &mut t, &nopts, &mut ws).is_ok()
+                && !seeds
+                    .iter()
+                    .any(|(q, u)| *q == p && u.iter().zip(&t).all(|(a, b)| (a - b).abs() < 1e-6))
+            {
+                seeds.push((p, t));
+            }
         }
         progress(&format!("seeds at {} = {p:.6}", param.key()));
     }
@@ -235,6 +270,18 @@ pub fn trace_all(
         }
         let mut tracer = Tracer::new(&mut problem, settings);
         match tracer.trace(u, *p) {
+            Ok(b)
+                if !raw.is_empty() && {
+                    let on = b
+                        .points
+                        .iter()
+                        .filter(|q| raw.iter().any(|r| on_branch(r, &q.u, q.p, (hi - lo).abs())))
+                        .count();
+                    on * 10 >= b.points.len() * 9
+                } =>
+            {
+                // a retrace of a branch already found (seed missed by on_branch)
+            }
             Ok(b) => {
                 progress(&format!(
                     "branch {}: {} points, {} folds",

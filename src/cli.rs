@@ -48,6 +48,8 @@ USAGE:
 
 COMMANDS:
     trace   trace every branch of equilibria in one parameter; folds, hysteresis
+    map     regime map: trace in one parameter for every value of another, in parallel
+    merge   join map shards (DIR...) into the files a single run writes
     solve   equilibria from warm and cold starts (and --start FILE)
     sun     daily and annual-mean insolation of the scenario's orbit
     check   validate the scenario and print it fully resolved
@@ -61,6 +63,10 @@ OPTIONS:
     --start FILE      (solve) extra start: a profile.csv (latitude_deg, temperature_c)
     --vary KEY        (trace) parameter to vary (default orbit.flux)
     --from X --to Y   (trace) parameter range
+    --across KEY=FROM:TO:COUNT  (map) the slice parameter (default orbit.obliquity=0:90:91)
+    --cells N         (map) cells of the regular summary grid (default 200)
+    --threads N       (map) worker threads (default: all cores); results do not depend on it
+    --shard K/N       (map) compute only slices K, K+N, ... and write a shard file
     --quiet           no progress on stderr
     -h, --help        this text
 ";
@@ -86,6 +92,18 @@ pub struct Args {
     pub to: Option<String>,
     /// `--quiet`.
     pub quiet: bool,
+    /// `--across KEY=FROM:TO:COUNT` (map).
+    pub across: Option<String>,
+    /// `--cells N` (map).
+    pub cells: Option<String>,
+    /// `--threads N` (map).
+    pub threads: Option<String>,
+    /// `--shard K/N` (map).
+    pub shard: Option<String>,
+    /// `--years N` (run).
+    pub years: Option<String>,
+    /// Further positional arguments (merge: shard directories).
+    pub rest: Vec<PathBuf>,
     /// The command line as given (provenance).
     pub line: String,
 }
@@ -112,12 +130,18 @@ pub fn parse_args(argv: &[String]) -> Result<Args, CliError> {
             "--from" => a.from = Some(value("--from", &mut it)?),
             "--to" => a.to = Some(value("--to", &mut it)?),
             "--quiet" | "-q" => a.quiet = true,
+            "--across" => a.across = Some(value("--across", &mut it)?),
+            "--cells" => a.cells = Some(value("--cells", &mut it)?),
+            "--threads" => a.threads = Some(value("--threads", &mut it)?),
+            "--shard" => a.shard = Some(value("--shard", &mut it)?),
+            "--years" => a.years = Some(value("--years", &mut it)?),
             s if s.starts_with("--") => {
                 return Err(CliError::Usage(format!(
                     "unknown option `{s}` (see icefold --help)"
                 )));
             }
             s if a.command.is_empty() => a.command = s.to_string(),
+            s if a.command == "merge" => a.rest.push(s.into()),
             s if a.scenario.is_none() => a.scenario = Some(s.into()),
             s => {
                 return Err(CliError::Usage(format!(
@@ -143,9 +167,11 @@ pub fn run(args: &Args) -> Result<String, CliError> {
         "solve" => cmd_solve(args),
         "sun" => cmd_sun(args),
         "trace" => crate::cli_trace::cmd_trace(args),
+        "map" => crate::cli_map::cmd_map(args),
+        "merge" => crate::cli_map::cmd_merge(args),
         "figures" => cmd_figures(args),
         other => Err(CliError::Usage(format!(
-            "unknown command `{other}`; commands: trace, solve, sun, check, figures (see icefold --help)"
+            "unknown command `{other}`; commands: trace, map, merge, solve, sun, check, figures (see icefold --help)"
         ))),
     }
 }

@@ -88,7 +88,7 @@ impl Settings {
             ds_min: 1e-7,
             ds_max: 0.4,
             tolerance: 1e-10,
-            max_points: 20000,
+            max_points: 4000,
         }
     }
 }
@@ -133,6 +133,9 @@ pub enum EndReason {
     },
     /// Point limit reached.
     PointLimit,
+    /// The branch came back onto points it had already traced (a closed
+    /// loop of equilibria).
+    Loop(f64),
 }
 
 impl std::fmt::Display for EndReason {
@@ -146,6 +149,7 @@ impl std::fmt::Display for EndReason {
                 )
             }
             EndReason::PointLimit => write!(f, "point limit reached"),
+            EndReason::Loop(p) => write!(f, "closed loop: came back to p = {p}"),
         }
     }
 }
@@ -384,6 +388,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
             cur.tp = -cur.tp;
         }
         let mut ds = s.ds0;
+        let mut seen: std::collections::HashMap<u64, usize> = std::collections::HashMap::new();
         loop {
             if pts.len() >= s.max_points {
                 return (pts, EndReason::PointLimit);
@@ -431,10 +436,18 @@ impl<'a, P: Problem> Tracer<'a, P> {
                         ds *= 0.5;
                         continue;
                     }
-                    if ds > 1e-6 && self.problem.label(&u) != self.problem.label(&cur.u) {
+                    if ds > 1e-4 && self.problem.label(&u) != self.problem.label(&cur.u) {
                         ds *= 0.25;
                         continue;
                     }
+                    // a closed loop repeats its points bit for bit
+                    if let Some(&k) = seen.get(&p.to_bits()) {
+                        let q: &Point = &pts[k];
+                        if q.u.iter().zip(&u).all(|(a, b)| (a - b).abs() < 1e-9) {
+                            return (pts, EndReason::Loop(p));
+                        }
+                    }
+                    seen.insert(p.to_bits(), pts.len());
                     let pt = self.make_point(u, p, tu, tp, res);
                     cur = pt.clone();
                     pts.push(pt);

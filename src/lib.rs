@@ -4,6 +4,7 @@
 pub mod albedo;
 pub mod branches;
 pub mod cli;
+pub mod cli_map;
 pub mod cli_trace;
 pub mod climate;
 pub mod continuation;
@@ -18,4 +19,5 @@ pub mod plot;
 pub mod quad;
 pub mod radiation;
 pub mod scenario;
+pub mod sweep;
 pub mod solve;

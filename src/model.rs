@@ -141,6 +141,18 @@ impl Param {
         }
     }
 
+    /// Unit of the parameter ("1" when dimensionless, UDUNITS style).
+    pub fn unit(self) -> &'static str {
+        match self {
+            Param::Flux | Param::OlrA => "W m-2",
+            Param::Obliquity => "degree",
+            Param::Co2 => "ppm",
+            Param::OlrB | Param::Diffusivity | Param::Relaxation => "W m-2 K-1",
+            Param::Threshold => "degC",
+            _ => "1",
+        }
+    }
+
     /// Parses a scenario key.
     pub fn from_key(key: &str) -> Option<Param> {
         Param::ALL.iter().copied().find(|p| p.key() == key)

@@ -1,0 +1,542 @@
+//! `icefold map` and `icefold merge`: regime maps over two parameters.
+use crate::cli::{Args, CliError, VERSION, load, written_list};
+use crate::cli_trace::parse_range;
+use crate::export::{Cell, OutputSet, Table};
+use crate::model::Param;
+use crate::netcdf::NcFile;
+use crate::plot;
+use crate::sweep::{
+    MapSpec, STATES, Slice, compute_slice, join_boundaries, regime_label, state_bit,
+};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+/// Format tag of shard files.
+const SHARD_FORMAT: &str = "icefold-map-shard-1";
+
+/// A shard file: everything a merge needs to render the map.
+#[derive(Serialize, Deserialize)]
+struct ShardFile {
+    format: String,
+    tool: String,
+    spec: MapSpec,
+    scenario: serde_json::Value,
+    scenario_toml: String,
+    shard: (usize, usize),
+    slices: Vec<Slice>,
+}
+
+fn usage(msg: String) -> CliError {
+    CliError::Usage(msg)
+}
+
+/// Parses `KEY=FROM:TO:COUNT`.
+fn parse_across(
+    text: &str,
+    model: &crate::model::Model,
+) -> Result<(Param, f64, f64, usize), CliError> {
+    let bad = |why: &str| {
+        usage(format!(
+            "--across `{text}`: {why} (expected KEY=FROM:TO:COUNT, e.g. orbit.obliquity=0:90:91)"
+        ))
+    };
+    let (key, range) = text.split_once('=').ok_or_else(|| bad("no `=`"))?;
+    let param =
+        Param::from_key(key.trim()).ok_or_else(|| bad("not a parameter that can be varied"))?;
+    if !model.has_param(param) {
+        return Err(bad("this key does not apply to the scenario"));
+    }
+    let parts: Vec<&str> = range.split(':').collect();
+    if parts.len() != 3 {
+        return Err(bad("need three fields after `=`"));
+    }
+    let num = |s: &str| s.trim().parse::<f64>().ok().filter(|x| x.is_finite());
+    let from = num(parts[0]).ok_or_else(|| bad("FROM is not a finite number"))?;
+    let to = num(parts[1]).ok_or_else(|| bad("TO is not a finite number"))?;
+    let count: usize = parts[2]
+        .trim()
+        .parse()
+        .map_err(|_| bad("COUNT is not a whole number"))?;
+    if count < 2 {
+        return Err(bad("COUNT must be at least 2"));
+    }
+    if count > 100_000 {
+        return Err(bad("COUNT must be at most 100000"));
+    }
+    if from >= to {
+        return Err(bad("the range is empty or inverted (need FROM < TO)"));
+    }
+    let (lo, hi) = param.range();
+    if from < lo || to > hi {
+        return Err(bad(&format!("{key} must stay within {lo} to {hi}")));
+    }
+    Ok((param, from, to, count))
+}
+
+fn parse_count(
+    flag: &str,
+    v: &Option<String>,
+    default: usize,
+    lo: usize,
+    hi: usize,
+) -> Result<usize, CliError> {
+    match v {
+        None => Ok(default),
+        Some(s) => match s.trim().parse::<usize>() {
+            Ok(n) if (lo..=hi).contains(&n) => Ok(n),
+            _ => Err(usage(format!(
+                "{flag} `{s}`: expected a whole number from {lo} to {hi}"
+            ))),
+        },
+    }
+}
+
+fn parse_shard(v: &Option<String>) -> Result<Option<(usize, usize)>, CliError> {
+    let Some(s) = v else { return Ok(None) };
+    let bad = || {
+        usage(format!(
+            "--shard `{s}`: expected K/N with 0 <= K < N, e.g. --shard 0/4"
+        ))
+    };
+    let (k, n) = s.split_once('/').ok_or_else(bad)?;
+    let k: usize = k.trim().parse().map_err(|_| bad())?;
+    let n: usize = n.trim().parse().map_err(|_| bad())?;
+    if n == 0 || k >= n {
+        return Err(bad());
+    }
+    Ok(Some((k, n)))
+}
+
+/// Runs `map`.
+pub fn cmd_map(args: &Args) -> Result<String, CliError> {
+    let sc = load(args)?;
+    let model = sc.model();
+    let across_text = args
+        .across
+        .clone()
+        .unwrap_or_else(|| "orbit.obliquity=0:90:91".into());
+    let (across, a_from, a_to, count) = parse_across(&across_text, &model)?;
+    let (vary, v_from, v_to) = parse_range(args, &model)?;
+    if across == vary {
+        return Err(usage(format!(
+            "--across and --vary are both `{}`: choose two different keys",
+            vary.key()
+        )));
+    }
+    let cells = parse_count("--cells", &args.cells, 200, 2, 100_000)?;
+    let threads = parse_count("--threads", &args.threads, 0, 1, 1024).or_else(|e| {
+        if args.threads.is_none() {
+            Ok(0)
+        } else {
+            Err(e)
+        }
+    })?;
+    let shard = parse_shard(&args.shard)?;
+    let spec = MapSpec {
+        across: across.key().into(),
+        across_from: a_from,
+        across_to: a_to,
+        count,
+        vary: vary.key().into(),
+        vary_from: v_from,
+        vary_to: v_to,
+        cells,
+    };
+    let indices: Vec<usize> = (0..count)
+        .filter(|j| shard.is_none_or(|(k, n)| j % n == k))
+        .collect();
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| CliError::Failed(format!("cannot start worker threads: {e}")))?;
+    let interactive = std::io::stderr().is_terminal() && !args.quiet;
+    let done = AtomicUsize::new(0);
+    let total = indices.len();
+    let (warm, cold, tol) = (
+        sc.num("solver.warm_start"),
+        sc.num("solver.cold_start"),
+        sc.num("solver.tolerance"),
+    );
+    let slices: Vec<Slice> = pool.install(|| {
+        indices
+            .par_iter()
+            .map(|&j| {
+                let s = compute_slice(&model, &spec, across, vary, j, warm, cold, tol);
+                let k = done.fetch_add(1, Ordering::Relaxed) + 1;
+                if interactive {
+                    let w = 30 * k / total.max(1);
+                    eprint!(
+                        "\r\x1b[2Kmap [{}{}] {k}/{total} slices",
+                        "#".repeat(w),
+                        "-".repeat(30 - w)
+                    );
+                }
+                s
+            })
+            .collect()
+    });
+    if interactive {
+        eprintln!();
+    }
+    let dir = args
+        .out
+        .clone()
+        .unwrap_or_else(|| PathBuf::from("out").join("map"));
+    let mut out = OutputSet::new();
+    if let Some((k, n)) = shard {
+        let file = ShardFile {
+            format: SHARD_FORMAT.into(),
+            tool: format!("icefold {VERSION}"),
+            spec: spec.clone(),
+            scenario: sc.to_json(),
+            scenario_toml: sc.to_toml(),
+            shard: (k, n),
+            slices,
+        };
+        let text = serde_json::to_string(&file).map_err(|e| CliError::Failed(e.to_string()))?;
+        out.add_text(dir.join(format!("shard-{k}-of-{n}.json")), &text);
+        let written = out.commit()?;
+        return Ok(format!(
+            "map shard {k}/{n}: {} slices\n{}",
+            file.slices.len(),
+            written_list(&written)
+        ));
+    }
+    render(
+        &spec,
+        &sc.to_json(),
+        &sc.to_toml(),
+        sc.name(),
+        &slices,
+        &dir,
+        &mut out,
+    )?;
+    let written = out.commit()?;
+    Ok(map_report(&spec, &slices) + &written_list(&written))
+}
+
+fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
+    let mut seen = std::collections::BTreeSet::new();
+    for s in slices {
+        for r in &s.regime {
+            seen.insert(*r);
+        }
+    }
+    let mut s = format!(
+        "map: {} slices of {} over {}..{}, traced in {}\n",
+        slices.len(),
+        spec.across,
+        spec.across_from,
+        spec.across_to,
+        spec.vary
+    );
+    for r in seen {
+        s += &format!("  regime present: {}\n", regime_label(r));
+    }
+    let notes: usize = slices.iter().map(|s| s.notes.len()).sum();
+    if notes > 0 {
+        s += &format!(
+            "  {notes} notes (branches ended early or seeds not continued): see summary.json\n"
+        );
+    }
+    s
+}
+
+fn sanitize(key: &str) -> String {
+    key.replace('.', "_")
+}
+
+/// Renders the files of a complete map into `out` (staged, not written).
+fn render(
+    spec: &MapSpec,
+    scenario: &serde_json::Value,
+    scenario_toml: &str,
+    name: &str,
+    slices: &[Slice],
+    dir: &Path,
+    out: &mut OutputSet,
+) -> Result<(), CliError> {
+    let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
+    // map.csv
+    let mut t = Table::new(&[
+        ak,
+        "branch",
+        vk,
+        "state",
+        "stable",
+        "unstable_modes",
+        "global_mean_temperature_c",
+        "ice_area_fraction",
+        "ice_edges_deg",
+    ]);
+    for s in slices {
+        for q in &s.points {
+            let edges: Vec<String> = q.ice_edges_deg.iter().map(|e| format!("{e}")).collect();
+            t.push_row(vec![
+                Cell::Num(s.across),
+                Cell::Int(q.branch as i64),
+                Cell::Num(q.value),
+                Cell::Text(q.state.clone()),
+                Cell::Bool(q.unstable_modes == 0),
+                Cell::Int(q.unstable_modes as i64),
+                Cell::Num(q.global_mean_c),
+                Cell::Num(q.ice_area_fraction),
+                Cell::Text(edges.join(";")),
+            ]);
+        }
+    }
+    out.add_table(dir.join("map.csv"), &t)?;
+    // boundaries.csv
+    let bounds = join_boundaries(slices);
+    let mut bt = Table::new(&["curve", "method", "transition", ak, vk]);
+    for (k, b) in bounds.iter().enumerate() {
+        for (a, v) in &b.points {
+            bt.push_row(vec![
+                Cell::Int(k as i64 + 1),
+                Cell::Text(b.method.into()),
+                Cell::Text(b.transition.clone()),
+                Cell::Num(*a),
+                Cell::Num(*v),
+            ]);
+        }
+    }
+    out.add_table(dir.join("boundaries.csv"), &bt)?;
+    // gridded summary
+    let xs: Vec<f64> = slices.iter().map(|s| s.across).collect();
+    let ys: Vec<f64> = (0..spec.cells).map(|c| spec.cell_value(c)).collect();
+    let (nx, ny) = (xs.len(), ys.len());
+    let mut regime = vec![0i32; nx * ny];
+    let mut count = vec![0i32; nx * ny];
+    for (i, s) in slices.iter().enumerate() {
+        for j in 0..ny {
+            regime[j * nx + i] = s.regime[j] as i32;
+            count[j * nx + i] = s.stable_count[j] as i32;
+        }
+    }
+    let across_p = Param::from_key(ak).expect("validated key");
+    let vary_p = Param::from_key(vk).expect("validated key");
+    let mut nc = NcFile::new();
+    let (adim, vdim) = (sanitize(ak), sanitize(vk));
+    nc.add_dim(&vdim, ny)?;
+    nc.add_dim(&adim, nx)?;
+    let va = nc.add_var_f64(&adim, &[&adim], xs.clone())?;
+    nc.var_attr_text(va, "units", across_p.unit());
+    nc.var_attr_text(va, "long_name", &format!("{ak} (slice parameter)"));
+    let vv = nc.add_var_f64(&vdim, &[&vdim], ys.clone())?;
+    nc.var_attr_text(vv, "units", vary_p.unit());
+    nc.var_attr_text(
+        vv,
+        "long_name",
+        &format!("{vk} (traced parameter, cell centres)"),
+    );
+    let vr = nc.add_var_i32("regime", &[&vdim, &adim], regime.clone())?;
+    nc.var_attr_text(vr, "long_name", "stable climates present (bit mask)");
+    nc.var_attr_i32(
+        vr,
+        "flag_masks",
+        &STATES
+            .iter()
+            .map(|s| state_bit(*s) as i32)
+            .collect::<Vec<_>>(),
+    );
+    nc.var_attr_text(
+        vr,
+        "flag_meanings",
+        "ice_free polar_caps equatorial_belt snowball other",
+    );
+    let vc = nc.add_var_i32("stable_climates", &[&vdim, &adim], count.clone())?;
+    nc.var_attr_text(vc, "long_name", "number of coexisting stable climates");
+    nc.var_attr_text(vc, "units", "1");
+    nc.global_attr_text("Conventions", "CF-1.8");
+    nc.global_attr_text("title", &format!("Regime map: {name}"));
+    nc.global_attr_text("source", &format!("icefold {VERSION}"));
+    nc.global_attr_text("history", &spec.command());
+    nc.global_attr_text("scenario", scenario_toml);
+    out.add(dir.join("map.nc"), nc.to_bytes()?);
+    // figure
+    let mut masks: Vec<u32> = regime.iter().map(|r| *r as u32).collect();
+    masks.sort_unstable();
+    masks.dedup();
+    let names: Vec<String> = masks.iter().map(|m| regime_label(*m)).collect();
+    let idx: Vec<u32> = regime
+        .iter()
+        .map(|r| masks.iter().position(|m| *m == *r as u32).unwrap_or(0) as u32)
+        .collect();
+    let bistable: Vec<bool> = count.iter().map(|c| *c >= 2).collect();
+    let lines: Vec<(String, Vec<(f64, f64)>)> = bounds
+        .iter()
+        .filter(|b| b.points.len() >= 2)
+        .map(|b| (b.transition.clone(), b.points.clone()))
+        .collect();
+    let fig = plot::regime_figure(
+        &format!("Stable climates: {name}"),
+        &format!("{ak} ({})", across_p.unit()),
+        &format!("{vk} ({})", vary_p.unit()),
+        &xs,
+        &ys,
+        &idx,
+        &names,
+        &bistable,
+        &lines,
+    )?;
+    out.add(dir.join("map.svg"), fig.svg);
+    out.add(dir.join("map.png"), fig.png);
+    // summary
+    let notes: Vec<serde_json::Value> = slices
+        .iter()
+        .filter(|s| !s.notes.is_empty())
+        .map(|s| serde_json::json!({ "slice": s.index, ak: s.across, "notes": s.notes }))
+        .collect();
+    let summary = serde_json::json!({
+        "tool": format!("icefold {VERSION}"),
+        "command": spec.command(),
+        "scenario": scenario,
+        "spec": spec,
+        "regimes": names,
+        "boundaries": bounds.iter().map(|b| serde_json::json!({"transition": b.transition, "method": b.method, "points": b.points.len()})).collect::<Vec<_>>(),
+        "notes": notes,
+    });
+    out.add_text(
+        dir.join("summary.json"),
+        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
+    );
+    out.add_text(dir.join("scenario.toml"), scenario_toml);
+    Ok(())
+}
+
+/// Runs `merge DIR...`: joins shard files into the outputs of a single run.
+pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
+    if args.rest.is_empty() {
+        return Err(usage(
+            "merge needs one or more shard directories or files (see icefold --help)".into(),
+        ));
+    }
+    let mut files: Vec<PathBuf> = Vec::new();
+    for p in &args.rest {
+        if p.is_dir() {
+            let rd = std::fs::read_dir(p)
+                .map_err(|e| usage(format!("cannot read {}: {e}", p.display())))?;
+            let mut found: Vec<PathBuf> = rd
+                .filter_map(|e| e.ok().map(|e| e.path()))
+                .filter(|f| {
+                    f.file_name()
+                        .and_then(|n| n.to_str())
+                        .is_some_and(|n| n.starts_with("shard-") && n.ends_with(".json"))
+                })
+                .collect();
+            found.sort();
+            if found.is_empty() {
+                return Err(usage(format!("{}: no shard-*.json files", p.display())));
+            }
+            files.extend(found);
+        } else {
+            files.push(p.clone());
+        }
+    }
+    let mut first: Option<ShardFile> = None;
+    let mut slices: std::collections::BTreeMap<usize, Slice> = std::collections::BTreeMap::new();
+    for f in &files {
+        let text = std::fs::read_to_string(f)
+            .map_err(|e| usage(format!("cannot read {}: {e}", f.display())))?;
+        let shard: ShardFile = serde_json::from_str(&text)
+            .map_err(|e| usage(format!("{}: not a map shard ({e})", f.display())))?;
+        if shard.format != SHARD_FORMAT {
+            return Err(usage(format!(
+                "{}: unknown shard format `{}`",
+                f.display(),
+                shard.format
+            )));
+        }
+        if let Some(r) = &first {
+            if r.spec != shard.spec {
+                return Err(usage(format!(
+                    "{}: a shard of a different map command (`{}` vs `{}`)",
+                    f.display(),
+                    shard.spec.command(),
+                    r.spec.command()
+                )));
+            }
+            if r.scenario != shard.scenario {
+                return Err(usage(format!(
+                    "{}: a shard of a different scenario",
+                    f.display()
+                )));
+            }
+            if r.tool != shard.tool {
+                return Err(usage(format!(
+                    "{}: written by {} but others by {}",
+                    f.display(),
+                    shard.tool,
+                    r.tool
+                )));
+            }
+        }
+        for s in &shard.slices {
+            if s.index >= shard.spec.count
+                || s.regime.len() != shard.spec.cells
+                || s.stable_count.len() != shard.spec.cells
+            {
+                return Err(usage(format!(
+                    "{}: slice {} does not fit the map",
+                    f.display(),
+                    s.index
+                )));
+            }
+            if let Some(old) = slices.get(&s.index) {
+                if old != s {
+                    return Err(usage(format!(
+                        "{}: slice {} differs from another shard's",
+                        f.display(),
+                        s.index
+                    )));
+                }
+            }
+            slices.insert(s.index, s.clone());
+        }
+        if first.is_none() {
+            first = Some(ShardFile {
+                slices: Vec::new(),
+                ..shard
+            });
+        }
+    }
+    let meta = first.ok_or_else(|| usage("no shards given".into()))?;
+    let missing: Vec<usize> = (0..meta.spec.count)
+        .filter(|j| !slices.contains_key(j))
+        .collect();
+    if !missing.is_empty() {
+        let list: Vec<String> = missing.iter().take(10).map(|j| j.to_string()).collect();
+        return Err(usage(format!(
+            "{} of {} slices missing (e.g. {}); run the remaining shards",
+            missing.len(),
+            meta.spec.count,
+            list.join(", ")
+        )));
+    }
+    let slices: Vec<Slice> = slices.into_values().collect();
+    let name = meta
+        .scenario
+        .get("name")
+        .and_then(|v| v.as_str())
+        .unwrap_or("")
+        .to_string();
+    let dir = args
+        .out
+        .clone()
+        .unwrap_or_else(|| PathBuf::from("out").join("map"));
+    let mut out = OutputSet::new();
+    render(
+        &meta.spec,
+        &meta.scenario,
+        &meta.scenario_toml,
+        &name,
+        &slices,
+        &dir,
+        &mut out,
+    )?;
+    let written = out.commit()?;
+    Ok(map_report(&meta.spec, &slices) + &written_list(&written))
+}

@@ -1,0 +1,304 @@
+//! Regime maps: continuation in one parameter for every value of another,
+//! in parallel, reduced to compact slices that can be computed in shards
+//! and merged, then rendered the same way whatever the threads or shards.
+
+use crate::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::climate::State;
+use crate::model::{Model, Param};
+use serde::{Deserialize, Serialize};
+
+/// What a map computes (everything that determines its result).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct MapSpec {
+    /// Key of the parameter that varies across slices.
+    pub across: String,
+    /// First across value.
+    pub across_from: f64,
+    /// Last across value.
+    pub across_to: f64,
+    /// Number of slices (>= 2), evenly spaced, ends included.
+    pub count: usize,
+    /// Key traced by continuation within a slice.
+    pub vary: String,
+    /// Lower end of the traced range.
+    pub vary_from: f64,
+    /// Upper end.
+    pub vary_to: f64,
+    /// Cells of the regular summary grid along the traced axis.
+    pub cells: usize,
+}
+
+impl MapSpec {
+    /// The across value of slice j: from + (to - from) j / (count - 1).
+    pub fn across_value(&self, j: usize) -> f64 {
+        self.across_from + (self.across_to - self.across_from) * j as f64 / (self.count - 1) as f64
+    }
+
+    /// Centre value of summary cell c along the traced axis.
+    pub fn cell_value(&self, c: usize) -> f64 {
+        self.vary_from + (self.vary_to - self.vary_from) * (c as f64 + 0.5) / self.cells as f64
+    }
+
+    /// The command that reproduces this map (without output, threads or
+    /// shard options): the same in every shard and in a single run.
+    pub fn command(&self) -> String {
+        format!(
+            "icefold map --across {}={}:{}:{} --vary {} --from {} --to {} --cells {}",
+            self.across,
+            self.across_from,
+            self.across_to,
+            self.count,
+            self.vary,
+            self.vary_from,
+            self.vary_to,
+            self.cells
+        )
+    }
+}
+
+/// One traced point of a slice.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct MapPoint {
+    /// Branch id within the slice.
+    pub branch: usize,
+    /// Traced-parameter value.
+    pub value: f64,
+    /// Climate state label.
+    pub state: String,
+    /// Unstable modes (0 = stable).
+    pub unstable_modes: usize,
+    /// Global mean temperature, °C.
+    pub global_mean_c: f64,
+    /// Ice area fraction.
+    pub ice_area_fraction: f64,
+    /// Northern ice edges, deg.
+    pub ice_edges_deg: Vec<f64>,
+}
+
+/// One fold of a slice.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct MapFold {
+    /// Branch id within the slice.
+    pub branch: usize,
+    /// Traced-parameter value of the fold.
+    pub value: f64,
+    /// Most poleward northern ice edge at the fold, deg.
+    pub ice_edge_deg: f64,
+    /// Global mean at the fold, °C.
+    pub global_mean_c: f64,
+    /// The stable state that ends at the fold.
+    pub from_state: String,
+    /// Where the climate goes ("none" if unknown).
+    pub to_state: String,
+}
+
+/// The compact result of one slice.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Slice {
+    /// Slice index j.
+    pub index: usize,
+    /// Across value.
+    pub across: f64,
+    /// Traced points.
+    pub points: Vec<MapPoint>,
+    /// Folds.
+    pub folds: Vec<MapFold>,
+    /// Per summary cell: bitmask of the stable states present
+    /// (see [`state_bit`]).
+    pub regime: Vec<u32>,
+    /// Per summary cell: number of coexisting stable climates.
+    pub stable_count: Vec<u32>,
+    /// Notes (branches that ended early, seeds not continued).
+    pub notes: Vec<String>,
+}
+
+/// The states in bit order of the regime mask.
+pub const STATES: [State; 5] = [
+    State::IceFree,
+    State::PolarCaps,
+    State::EquatorialBelt,
+    State::Snowball,
+    State::Other,
+];
+
+/// Bit of a state in the regime mask: ice-free 1, polar-caps 2,
+/// equatorial-belt 4, snowball 8, other 16.
+pub fn state_bit(s: State) -> u32 {
+    1 << STATES.iter().position(|x| *x == s).unwrap_or(4)
+}
+
+/// Human label of a regime mask, e.g. "polar-caps + snowball"; "none" for 0.
+pub fn regime_label(mask: u32) -> String {
+    let names: Vec<&str> = STATES
+        .iter()
+        .filter(|s| mask & state_bit(**s) != 0)
+        .map(|s| s.label())
+        .collect();
+    if names.is_empty() {
+        "no stable climate".into()
+    } else {
+        names.join(" + ")
+    }
+}
+
+/// Reduces a traced slice to its compact form.
+pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slice {
+    let mut points = Vec::new();
+    let mut folds = Vec::new();
+    let mut notes = h.failures.clone();
+    let mut regime = vec![0u32; spec.cells];
+    let mut stable_count = vec![0u32; spec.cells];
+    for b in &h.branches {
+        for q in &b.points {
+            let d = &q.diagnostics;
+            points.push(MapPoint {
+                branch: b.id,
+                value: q.p,
+                state: d.state.label().into(),
+                unstable_modes: q.unstable_modes,
+                global_mean_c: d.global_mean_c,
+                ice_area_fraction: d.ice_area_fraction,
+                ice_edges_deg: d.ice_edges_deg.clone(),
+            });
+        }
+        for f in &b.folds {
+            folds.push(MapFold {
+                branch: b.id,
+                value: f.point.p,
+                ice_edge_deg: poleward_edge_deg(&f.point.diagnostics),
+                global_mean_c: f.point.diagnostics.global_mean_c,
+                from_state: f.from_state.label().into(),
+                to_state: f
+                    .jump_to
+                    .as_ref()
+                    .map_or("none", |j| j.diagnostics.state.label())
+                    .into(),
+            });
+        }
+        for e in &b.ends {
+            if let crate::continuation::EndReason::StepTooSmall { .. } = e {
+                notes.push(format!("branch {} ended early: {e}", b.id));
+            }
+        }
+        // summary cells: a stable segment between consecutive points covers
+        // the cells whose centre lies between them
+        for w in b.points.windows(2) {
+            let (q1, q2) = (&w[0], &w[1]);
+            if q1.unstable_modes != 0 || q2.unstable_modes != 0 {
+                continue;
+            }
+            let (lo, hi) = (q1.p.min(q2.p), q1.p.max(q2.p));
+            for c in 0..spec.cells {
+                let v = spec.cell_value(c);
+                // half-open on the right so a shared point counts once
+                if v >= lo && v < hi {
+                    let q = if (v - q1.p).abs() <= (v - q2.p).abs() {
+                        q1
+                    } else {
+                        q2
+                    };
+                    regime[c] |= state_bit(q.diagnostics.state);
+                    stable_count[c] += 1;
+                }
+            }
+        }
+    }
+    Slice {
+        index,
+        across,
+        points,
+        folds,
+        regime,
+        stable_count,
+        notes,
+    }
+}
+
+/// Computes slice j of the map.
+pub fn compute_slice(
+    model: &Model,
+    spec: &MapSpec,
+    across: Param,
+    vary: Param,
+    j: usize,
+    warm: f64,
+    cold: f64,
+    tol: f64,
+) -> Slice {
+    let mut m = model.clone();
+    let a = spec.across_value(j);
+    m.set_param(across, a);
+    let opts = TraceOptions {
+        tolerance: tol,
+        ..TraceOptions::default()
+    };
+    let h = trace_all(
+        &m,
+        vary,
+        spec.vary_from,
+        spec.vary_to,
+        warm,
+        cold,
+        &opts,
+        &mut |_| {},
+    );
+    reduce(spec, j, a, &h)
+}
+
+/// A boundary curve in the (across, vary) plane.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Boundary {
+    /// Transition label, e.g. "polar-caps -> snowball".
+    pub transition: String,
+    /// How it was obtained ("slices": folds of neighbouring slices joined).
+    pub method: &'static str,
+    /// Points (across, vary).
+    pub points: Vec<(f64, f64)>,
+}
+
+/// Joins the folds of consecutive slices into curves: within each slice the
+/// folds of one transition are ordered by value, and the k-th fold of a
+/// transition joins the k-th of the same transition in the next slice. A
+/// curve breaks where a slice has no such fold.
+pub fn join_boundaries(slices: &[Slice]) -> Vec<Boundary> {
+    let mut done: Vec<Boundary> = Vec::new();
+    let mut open: Vec<(String, usize, Boundary)> = Vec::new();
+    for s in slices {
+        let mut by: std::collections::BTreeMap<String, Vec<f64>> =
+            std::collections::BTreeMap::new();
+        for f in &s.folds {
+            by.entry(format!("{} -> {}", f.from_state, f.to_state))
+                .or_default()
+                .push(f.value);
+        }
+        for v in by.values_mut() {
+            v.sort_by(f64::total_cmp);
+        }
+        let mut next: Vec<(String, usize, Boundary)> = Vec::new();
+        for (label, vals) in &by {
+            for (k, v) in vals.iter().enumerate() {
+                let pos = open.iter().position(|(l, kk, _)| l == label && *kk == k);
+                let mut b = match pos {
+                    Some(i) => open.remove(i).2,
+                    None => Boundary {
+                        transition: label.clone(),
+                        method: "slices",
+                        points: Vec::new(),
+                    },
+                };
+                b.points.push((s.across, *v));
+                next.push((label.clone(), k, b));
+            }
+        }
+        done.extend(open.drain(..).map(|(_, _, b)| b));
+        open = next;
+    }
+    done.extend(open.into_iter().map(|(_, _, b)| b));
+    done.sort_by(|a, b| {
+        a.transition
+            .cmp(&b.transition)
+            .then(a.points[0].0.total_cmp(&b.points[0].0))
+            .then(a.points[0].1.total_cmp(&b.points[0].1))
+    });
+    done
+}

@@ -1,0 +1,197 @@
+//! Regime maps: determinism across threads and shards, slices equal to
+//! independent traces, the expected regimes, and bad input.
+use icefold::branches::{TraceOptions, trace_all};
+use icefold::model::Param;
+use icefold::scenario::Scenario;
+use icefold::sweep::{MapSpec, compute_slice};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn icefold(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_icefold"))
+        .args(args)
+        .output()
+        .expect("run icefold");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn temp_dir(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("icefold-map-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    d
+}
+
+const SCEN: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/kdwarf-ocean.toml");
+const FILES: [&str; 7] = [
+    "map.csv",
+    "boundaries.csv",
+    "map.nc",
+    "map.svg",
+    "map.png",
+    "summary.json",
+    "scenario.toml",
+];
+
+fn run_map(dir: &Path, extra: &[&str]) {
+    let mut a = vec![
+        "map",
+        SCEN,
+        "--across",
+        "orbit.obliquity=0:90:7",
+        "--cells",
+        "40",
+        "--quiet",
+        "--out",
+        dir.to_str().unwrap(),
+    ];
+    a.extend(extra);
+    let (code, _, stderr) = icefold(&a);
+    assert_eq!(code, 0, "{stderr}");
+}
+
+/// Determinism (our requirement): 1 thread equals 2 threads, and shards
+/// merged equal a single run, byte for byte.
+#[test]
+fn threads_and_shards_give_identical_bytes() {
+    let (d1, d2, s, m) = (
+        temp_dir("t1"),
+        temp_dir("t2"),
+        temp_dir("shards"),
+        temp_dir("merged"),
+    );
+    run_map(&d1, &["--threads", "1"]);
+    run_map(&d2, &["--threads", "2"]);
+    run_map(&s, &["--shard", "0/3"]);
+    run_map(&s, &["--shard", "2/3"]);
+    // an incomplete merge is refused and writes nothing
+    let (code, _, stderr) = icefold(&["merge", s.to_str().unwrap(), "--out", m.to_str().unwrap()]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("missing"), "{stderr}");
+    assert!(!m.exists());
+    run_map(&s, &["--shard", "1/3"]);
+    let (code, _, stderr) = icefold(&["merge", s.to_str().unwrap(), "--out", m.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    for f in FILES {
+        let a = std::fs::read(d1.join(f)).unwrap();
+        assert_eq!(a, std::fs::read(d2.join(f)).unwrap(), "{f}: 1 vs 2 threads");
+        assert_eq!(
+            a,
+            std::fs::read(m.join(f)).unwrap(),
+            "{f}: single run vs merged shards"
+        );
+    }
+    // the map's contents: polar caps at low obliquity, equatorial ice belts at
+    // high obliquity (qualitative result of obliquity studies, e.g. Rose,
+    // Cronin & Bitz 2017, ApJ 846, 28)
+    let csv = std::fs::read_to_string(d1.join("map.csv")).unwrap();
+    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg\n"));
+    let rows: Vec<Vec<&str>> = csv
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').collect())
+        .collect();
+    assert!(
+        rows.iter().any(|r| r[0].parse::<f64>().unwrap() <= 30.0
+            && r[3] == "polar-caps"
+            && r[4] == "true")
+    );
+    assert!(
+        rows.iter()
+            .any(|r| r[0].parse::<f64>().unwrap() >= 75.0 && r[3] == "equatorial-belt")
+    );
+    // a CF NetCDF-3 file
+    let nc = std::fs::read(d1.join("map.nc")).unwrap();
+    assert_eq!(&nc[..4], b"CDF\x02");
+    let text = String::from_utf8_lossy(&nc);
+    assert!(
+        text.contains("Conventions") && text.contains("CF-1.8") && text.contains("flag_meanings")
+    );
+}
+
+/// A slice of the map equals an independent trace at that obliquity: the
+/// same folds to 1e-9 relative (our requirement).
+#[test]
+fn slice_equals_independent_trace() {
+    let sc = Scenario::load(Some(Path::new(SCEN)), &[]).unwrap();
+    let model = sc.model();
+    let spec = MapSpec {
+        across: "orbit.obliquity".into(),
+        across_from: 0.0,
+        across_to: 60.0,
+        count: 3,
+        vary: "orbit.flux".into(),
+        vary_from: 980.0,
+        vary_to: 1400.0,
+        cells: 20,
+    };
+    let slice = compute_slice(
+        &model,
+        &spec,
+        Param::Obliquity,
+        Param::Flux,
+        1,
+        30.0,
+        -60.0,
+        1e-10,
+    );
+    let mut m = Scenario::load(Some(Path::new(SCEN)), &["orbit.obliquity=30".into()])
+        .unwrap()
+        .model();
+    m.set_param(Param::Flux, m.param(Param::Flux));
+    let h = trace_all(
+        &m,
+        Param::Flux,
+        980.0,
+        1400.0,
+        30.0,
+        -60.0,
+        &TraceOptions::default(),
+        &mut |_| {},
+    );
+    let mut a: Vec<f64> = slice.folds.iter().map(|f| f.value).collect();
+    let mut b: Vec<f64> = h
+        .branches
+        .iter()
+        .flat_map(|br| br.folds.iter().map(|f| f.point.p))
+        .collect();
+    a.sort_by(f64::total_cmp);
+    b.sort_by(f64::total_cmp);
+    assert!(!a.is_empty());
+    assert_eq!(a.len(), b.len());
+    for (x, y) in a.iter().zip(&b) {
+        assert!((x - y).abs() <= 1e-9 * y.abs(), "{x} vs {y}");
+    }
+}
+
+#[test]
+fn bad_map_input_exits_2_and_writes_nothing() {
+    let d = temp_dir("bad");
+    let other = temp_dir("other-scenario");
+    run_map(&other, &["--shard", "0/2", "--set", "orbit.flux=1200"]);
+    let first = temp_dir("first");
+    run_map(&first, &["--shard", "1/2"]);
+    let cases: Vec<Vec<&str>> = vec![
+        vec!["map", "--across", "orbit.obliquity=0:90:1"],
+        vec!["map", "--across", "orbit.obliquity=0:ninety:5"],
+        vec!["map", "--across", "orbit.obliquity=90:0:5"],
+        vec!["map", "--across", "orbit.obliquity"],
+        vec!["map", "--across", "orbit.flux=1000:1300:5"],
+        vec!["map", "--shard", "3/3"],
+        vec!["map", "--shard", "x"],
+        vec!["map", "--cells", "1"],
+        vec!["merge", other.to_str().unwrap(), first.to_str().unwrap()],
+        vec!["merge"],
+    ];
+    for args in cases {
+        let mut a = args.clone();
+        a.extend(["--quiet", "--out", d.to_str().unwrap()]);
+        let (code, _, stderr) = icefold(&a);
+        assert_eq!(code, 2, "{args:?}: {stderr}");
+        assert_eq!(stderr.trim().lines().count(), 1, "{args:?}: {stderr}");
+        assert!(!d.exists(), "{args:?} wrote output");
+    }
+}
