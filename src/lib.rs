@@ -19,5 +19,5 @@ pub mod plot;
 pub mod quad;
 pub mod radiation;
 pub mod scenario;
-pub mod sweep;
 pub mod solve;
+pub mod sweep;
