@@ -485,14 +485,14 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
                     s.index
                 )));
             }
-            if let Some(old) = slices.get(&s.index) {
-                if old != s {
-                    return Err(usage(format!(
-                        "{}: slice {} differs from another shard's",
-                        f.display(),
-                        s.index
-                    )));
-                }
+            if let Some(old) = slices.get(&s.index)
+                && old != s
+            {
+                return Err(usage(format!(
+                    "{}: slice {} differs from another shard's",
+                    f.display(),
+                    s.index
+                )));
             }
             slices.insert(s.index, s.clone());
         }

@@ -467,13 +467,13 @@ impl<'a, P: Problem> Tracer<'a, P> {
                     // A kink of the residual (e.g. an ice cap appearing at
                     // the pole) can turn the branch sharply: cross it
                     // explicitly before giving up.
-                    if ds < 1e-3 {
-                        if let Some(next) = self.cross_corner(&cur, ds.max(1e-5)) {
-                            cur = next.clone();
-                            pts.push(next);
-                            ds = 1e-3;
-                            continue;
-                        }
+                    if ds < 1e-3
+                        && let Some(next) = self.cross_corner(&cur, ds.max(1e-5))
+                    {
+                        cur = next.clone();
+                        pts.push(next);
+                        ds = 1e-3;
+                        continue;
                     }
                     ds *= 0.5;
                     if ds < s.ds_min {
@@ -537,13 +537,14 @@ impl<'a, P: Problem> Tracer<'a, P> {
             while h <= 1e-2 {
                 let mut u: Vec<f64> = u_far.iter().zip(&tu).map(|(a, t)| a + h * t).collect();
                 let mut p = p_far + h * tp;
-                if p >= self.settings.lo && p <= self.settings.hi {
-                    if let Ok((_, res)) = self.correct(&mut u, &mut p, &tu, tp) {
-                        let moved = (0..n).map(|i| (u[i] - cur.u[i]).abs()).fold(0.0, f64::max);
-                        if self.problem.label(&u) == label_far && moved > 0.0 {
-                            let (ntu, ntp) = self.tangent(&u, p, &tu, tp).ok()?;
-                            return Some(self.make_point(u, p, ntu, ntp, res));
-                        }
+                if p >= self.settings.lo
+                    && p <= self.settings.hi
+                    && let Ok((_, res)) = self.correct(&mut u, &mut p, &tu, tp)
+                {
+                    let moved = (0..n).map(|i| (u[i] - cur.u[i]).abs()).fold(0.0, f64::max);
+                    if self.problem.label(&u) == label_far && moved > 0.0 {
+                        let (ntu, ntp) = self.tangent(&u, p, &tu, tp).ok()?;
+                        return Some(self.make_point(u, p, ntu, ntp, res));
                     }
                 }
                 h *= 4.0;

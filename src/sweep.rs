@@ -215,6 +215,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
 }
 
 /// Computes slice j of the map.
+#[allow(clippy::too_many_arguments)]
 pub fn compute_slice(
     model: &Model,
     spec: &MapSpec,
