@@ -51,6 +51,8 @@ COMMANDS:
     map     regime map: trace in one parameter for every value of another, in parallel
     merge   join map shards (DIR...) into the files a single run writes
     solve   equilibria from warm and cold starts (and --start FILE)
+    periodic  periodic (seasonal) climates by shooting, with Floquet stability
+    run     integrate the seasonal model --years N from --from warm|cold|FILE
     sun     daily and annual-mean insolation of the scenario's orbit
     check   validate the scenario and print it fully resolved
     figures regenerate the README figures into DIR (default figures/)
@@ -62,7 +64,8 @@ OPTIONS:
     --out DIR         output directory (default: out/<command>)
     --start FILE      (solve) extra start: a profile.csv (latitude_deg, temperature_c)
     --vary KEY        (trace) parameter to vary (default orbit.flux)
-    --from X --to Y   (trace) parameter range
+    --from X --to Y   (trace, map) parameter range; (run) --from warm|cold|FILE
+    --years N         (run) years to integrate
     --across KEY=FROM:TO:COUNT  (map) the slice parameter (default orbit.obliquity=0:90:91)
     --cells N         (map) cells of the regular summary grid (default 200)
     --threads N       (map) worker threads (default: all cores); results do not depend on it
@@ -168,10 +171,20 @@ pub fn run(args: &Args) -> Result<String, CliError> {
         "sun" => cmd_sun(args),
         "trace" => crate::cli_trace::cmd_trace(args),
         "map" => crate::cli_map::cmd_map(args),
+        "run" => {
+            let s = args.years.as_deref().ok_or_else(|| {
+                CliError::Usage("run needs --years N (see icefold --help)".into())
+            })?;
+            let years: usize = s.trim().parse().map_err(|_| {
+                CliError::Usage(format!("--years `{s}` is not a whole number of years"))
+            })?;
+            crate::cli_seasons::cmd_run(args, years, args.from.as_deref())
+        }
+        "periodic" => crate::cli_seasons::cmd_periodic(args),
         "merge" => crate::cli_map::cmd_merge(args),
         "figures" => cmd_figures(args),
         other => Err(CliError::Usage(format!(
-            "unknown command `{other}`; commands: trace, map, merge, solve, sun, check, figures (see icefold --help)"
+            "unknown command `{other}`; commands: trace, map, merge, solve, periodic, run, sun, check, figures (see icefold --help)"
         ))),
     }
 }

@@ -78,16 +78,19 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
         tolerance: sc.num("solver.tolerance"),
         ..TraceOptions::default()
     };
-    let h = trace_all(
-        &model,
-        param,
-        from,
-        to,
-        sc.num("solver.warm_start"),
-        sc.num("solver.cold_start"),
-        &opts,
-        &mut progress,
-    );
+    let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
+    let h = if sc.flag("seasons.enabled") {
+        // periodic climates through the annual map (same outputs)
+        let sm = crate::seasons::SeasonalModel::from_scenario(&sc)
+            .map_err(|e| CliError::Usage(format!("seasonal model: {e}")))?;
+        let sopts = crate::seasons::SeasonalTraceOptions::default();
+        let mut h =
+            crate::seasons::trace_seasonal(&sm, param, from, to, warm, cold, &sopts, &mut progress);
+        crate::branches::resolve_jumps(&mut h.branches, (to - from).abs());
+        h
+    } else {
+        trace_all(&model, param, from, to, warm, cold, &opts, &mut progress)
+    };
     if !quiet && interactive {
         eprintln!();
     }

@@ -325,7 +325,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Bool,
         default: "false",
         unit: "",
-        doc: "Use the seasonal model (periodic climates).",
+        doc: "Trace the seasonal model (periodic climates) with `trace`; `periodic` and `run` always use it.",
     },
     KeySpec {
         key: "seasons.mixed_layer_depth",
@@ -574,11 +574,12 @@ impl Scenario {
                 allowed: "-1 to 2 (insolation must stay non-negative)".into(),
             });
         }
-        if self.flag("seasons.enabled") {
+        if self.flag("seasons.enabled") && self.flag("grid.symmetric") {
             return Err(ScenarioError::OutOfRange {
-                key: "seasons.enabled".into(),
+                key: "grid.symmetric".into(),
                 value: "true".into(),
-                allowed: "false (the seasonal model is not built yet; seasons.* keys other than enabled set the heat capacity)".into(),
+                allowed: "false when seasons.enabled = true (the hemispheres differ over the year)"
+                    .into(),
             });
         }
         if self.int("grid.bands") < 4 {

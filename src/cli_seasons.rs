@@ -1,0 +1,564 @@
+//! `icefold run` (time integration of the seasonal model) and
+//! `icefold periodic` (periodic climates by shooting) on the command line.
+//!
+//! State files (`state.csv`) start with one comment line naming the
+//! scenario and the grid,
+//!
+//! `# icefold state: scenario=NAME; bands=N; spacing=sine; symmetric=false; steps_per_year=K; year_fraction=0`
+//!
+//! followed by `latitude_deg,sin_latitude,temperature_c` rows; `--from FILE`
+//! refuses a file written for another scenario name or grid (exit 2).
+
+use crate::cli::{Args, CliError, load, out_dir, provenance, read_start, written_list};
+use crate::climate::{Start, diagnose, standard_starts};
+use crate::export::{Cell, OutputSet, Table};
+use crate::model::Model;
+use crate::netcdf::NcFile;
+use crate::plot;
+use crate::scenario::Scenario;
+use crate::seasons::{
+    Cycle, DAYS_PER_YEAR, Periodic, SeasonalError, SeasonalModel, ShootingOptions, cycle,
+    find_periodic, polar_ice_edges,
+};
+use std::path::Path;
+
+/// Most years `run` integrates in one call.
+pub const MAX_YEARS: usize = 100_000;
+/// Most time steps `run` integrates in one call (years x steps per year).
+pub const MAX_TOTAL_STEPS: usize = 20_000_000;
+
+fn seasonal_error(e: SeasonalError) -> CliError {
+    match e {
+        SeasonalError::Invalid(m) => CliError::Usage(m),
+        other => CliError::Failed(format!("{other}; nothing written")),
+    }
+}
+
+/// The header line of a state file for this scenario and model.
+pub fn state_header(sc: &Scenario, sm: &SeasonalModel) -> String {
+    let g = &sm.model().grid;
+    format!(
+        "# icefold state: scenario={}; bands={}; spacing={}; symmetric={}; steps_per_year={}; year_fraction=0",
+        sc.name().replace([';', '\n', '\r'], " "),
+        g.len(),
+        g.spacing,
+        g.symmetric,
+        sm.steps_per_year()
+    )
+}
+
+/// Reads a state file written by `run` and checks that it belongs to this
+/// scenario (same name) and grid (bands, spacing, symmetry and the band
+/// latitudes to 1e-6 deg). Any mismatch or malformed content is a usage
+/// error (exit 2).
+pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, CliError> {
+    let bad = |why: String| CliError::Usage(format!("--from {}: {why}", path.display()));
+    let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
+    let mut lines = text.lines();
+    let header = lines
+        .next()
+        .and_then(|l| l.strip_prefix("# icefold state:"))
+        .ok_or_else(|| {
+            bad("not an icefold state file (its first line must be `# icefold state: ...`, as written by `icefold run`)".into())
+        })?;
+    let mut fields = std::collections::BTreeMap::new();
+    for part in header.split(';') {
+        if let Some((k, v)) = part.split_once('=') {
+            fields.insert(k.trim().to_string(), v.trim().to_string());
+        }
+    }
+    let g = &model.grid;
+    let name = sc.name().replace([';', '\n', '\r'], " ");
+    let expect = [
+        ("scenario", name.trim().to_string()),
+        ("bands", g.len().to_string()),
+        ("spacing", g.spacing.to_string()),
+        ("symmetric", g.symmetric.to_string()),
+    ];
+    for (k, want) in &expect {
+        match fields.get(*k) {
+            Some(got) if got == want => {}
+            Some(got) => {
+                return Err(bad(format!(
+                    "written for {k} = {got}, but this run has {k} = {want}"
+                )));
+            }
+            None => return Err(bad(format!("the header names no {k}"))),
+        }
+    }
+    let mut rows = lines.filter(|l| !l.trim().is_empty() && !l.starts_with('#'));
+    let cols: Vec<&str> = rows
+        .next()
+        .ok_or_else(|| bad("no table".into()))?
+        .split(',')
+        .map(str::trim)
+        .collect();
+    let il = cols
+        .iter()
+        .position(|c| *c == "latitude_deg")
+        .ok_or_else(|| bad("no `latitude_deg` column".into()))?;
+    let it = cols
+        .iter()
+        .position(|c| *c == "temperature_c")
+        .ok_or_else(|| bad("no `temperature_c` column".into()))?;
+    let lat = g.latitudes_deg();
+    let mut temperature = Vec::with_capacity(g.len());
+    for (k, line) in rows.enumerate() {
+        let cells: Vec<&str> = line.split(',').collect();
+        let num = |i: usize| -> Option<f64> {
+            cells
+                .get(i)
+                .and_then(|c| c.trim().parse::<f64>().ok())
+                .filter(|v| v.is_finite())
+        };
+        let (Some(la), Some(t)) = (num(il), num(it)) else {
+            return Err(bad(format!("row {} is not two finite numbers", k + 1)));
+        };
+        if k >= lat.len() || (la - lat[k]).abs() > 1e-6 {
+            return Err(bad(format!(
+                "row {}: latitude {la} does not match the grid's band {} ({})",
+                k + 1,
+                k + 1,
+                lat.get(k).map_or("none".to_string(), |v| format!("{v}"))
+            )));
+        }
+        if !(-273.15..=1000.0).contains(&t) {
+            return Err(bad(format!(
+                "row {}: temperature {t} C is out of range (-273.15 to 1000)",
+                k + 1
+            )));
+        }
+        temperature.push(t);
+    }
+    if temperature.len() != lat.len() {
+        return Err(bad(format!(
+            "{} rows, but the grid has {} bands",
+            temperature.len(),
+            lat.len()
+        )));
+    }
+    Ok(Start {
+        label: path.display().to_string(),
+        temperature,
+    })
+}
+
+/// `icefold run [SCENARIO] --years N [--from warm|cold|FILE]`: integrates
+/// the seasonal model for `years` whole years from the start and writes
+/// `timeseries.csv` (every step: `time_years`, `day_of_year`,
+/// `global_mean_temperature_c`, `ice_area_fraction`, `ice_edge_north_deg`,
+/// `ice_edge_south_deg`), `state.csv` (the final state, with its header
+/// line), `summary.json` and `scenario.toml`. Default start: warm.
+pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, CliError> {
+    let sc = load(args)?;
+    let mut sm = SeasonalModel::from_scenario(&sc).map_err(seasonal_error)?;
+    if years == 0 || years > MAX_YEARS {
+        return Err(CliError::Usage(format!(
+            "--years {years}: allowed 1 to {MAX_YEARS}"
+        )));
+    }
+    let steps = sm.steps_per_year();
+    if years.saturating_mul(steps) > MAX_TOTAL_STEPS {
+        return Err(CliError::Usage(format!(
+            "--years {years} with {steps} steps per year is more than {MAX_TOTAL_STEPS} steps; use fewer years or chain runs with --from"
+        )));
+    }
+    let n = sm.len();
+    let start = match from.unwrap_or("warm") {
+        "warm" => standard_starts(n, sc.num("solver.warm_start"), 0.0).remove(0),
+        "cold" => standard_starts(n, 0.0, sc.num("solver.cold_start")).remove(1),
+        file => read_state(Path::new(file), &sc, sm.model())?,
+    };
+    let mut t = start.temperature.clone();
+    let mut table = Table::new(&[
+        "time_years",
+        "day_of_year",
+        "global_mean_temperature_c",
+        "ice_area_fraction",
+        "ice_edge_north_deg",
+        "ice_edge_south_deg",
+    ]);
+    let mut failure = None;
+    let mut last_change = f64::NAN;
+    for y in 0..years {
+        let before = t.clone();
+        let mut rows = Vec::with_capacity(steps);
+        let res = sm.year_with(&mut t, &mut |k, model, s| {
+            let (north, south) = polar_ice_edges(model, s);
+            let frac = (k + 1) as f64 / steps as f64;
+            rows.push(vec![
+                Cell::Num(y as f64 + frac),
+                Cell::Num(frac * DAYS_PER_YEAR),
+                Cell::Num(model.grid.mean(s)),
+                Cell::Num(model.ice_area_fraction(s)),
+                Cell::Num(north),
+                Cell::Num(south),
+            ]);
+        });
+        if let Err(e) = res {
+            failure = Some(format!("in year {}: {e}", y + 1));
+            break;
+        }
+        for r in rows {
+            table.push_row(r);
+        }
+        last_change = t
+            .iter()
+            .zip(&before)
+            .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+    }
+    if let Some(why) = failure {
+        return Err(CliError::Failed(format!(
+            "the time integration failed {why}; nothing written"
+        )));
+    }
+    let model = sm.model();
+    let mut state = state_header(&sc, &sm);
+    state.push('\n');
+    let mut st = Table::new(&["latitude_deg", "sin_latitude", "temperature_c"]);
+    for (i, lat) in model.grid.latitudes_deg().iter().enumerate() {
+        st.push_row(vec![
+            Cell::Num(*lat),
+            Cell::Num(model.grid.centres[i]),
+            Cell::Num(t[i]),
+        ]);
+    }
+    state += &st.to_csv()?;
+    let d = diagnose(&sm.annual_model(), &t);
+    let (north, south) = polar_ice_edges(model, &t);
+    let mut summary = provenance(&sc, args);
+    summary.insert("start".into(), start.label.clone().into());
+    summary.insert("years".into(), years.into());
+    summary.insert("steps_per_year".into(), steps.into());
+    summary.insert(
+        "final_state".into(),
+        serde_json::json!({
+            "year_fraction": 0.0,
+            "global_mean_temperature_c": d.global_mean_c,
+            "ice_area_fraction": d.ice_area_fraction,
+            "ice_edge_north_deg": north,
+            "ice_edge_south_deg": south,
+            "last_year_max_change_k": last_change,
+        }),
+    );
+    let dir = out_dir(args);
+    let mut out = OutputSet::new();
+    out.add_table(dir.join("timeseries.csv"), &table)?;
+    out.add_text(dir.join("state.csv"), &state);
+    out.add_text(
+        dir.join("summary.json"),
+        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
+    );
+    out.add_text(dir.join("scenario.toml"), &sc.to_toml());
+    let written = out.commit()?;
+    let mut s = format!(
+        "{}: {years} years from {} ({steps} steps per year): global mean {:.3} C, ice fraction {:.4}, last year's largest change {:.3e} K\n",
+        sc.name(),
+        start.label,
+        d.global_mean_c,
+        d.ice_area_fraction,
+        last_change
+    );
+    s += &written_list(&written);
+    Ok(s)
+}
+
+/// Latitude-time polylines of the polar ice edges (broken where the pole
+/// is ice-free or the ice covers everything).
+fn edge_lines(c: &Cycle) -> Vec<Vec<(f64, f64)>> {
+    let mut lines = Vec::new();
+    for which in 0..2 {
+        let mut cur: Vec<(f64, f64)> = Vec::new();
+        for (k, e) in c.ice_edges_deg.iter().enumerate() {
+            let v = if which == 0 { e.0 } else { e.1 };
+            let day = c.times[k] * DAYS_PER_YEAR;
+            if v > -90.0 && v < 90.0 {
+                cur.push((day, v));
+            } else if !cur.is_empty() {
+                lines.push(std::mem::take(&mut cur));
+            }
+        }
+        if !cur.is_empty() {
+            lines.push(cur);
+        }
+    }
+    lines.retain(|l| l.len() >= 2);
+    lines
+}
+
+fn climate_json(
+    k: usize,
+    p: &Periodic,
+    c: &Cycle,
+    d: &crate::climate::Diagnostics,
+) -> serde_json::Value {
+    let ((dmin, fmin), (dmax, fmax)) = c.ice_extremes();
+    let top: Vec<serde_json::Value> = p
+        .multipliers
+        .iter()
+        .take(5)
+        .map(|(re, im)| serde_json::json!({"re": re, "im": im, "modulus": re.hypot(*im)}))
+        .collect();
+    serde_json::json!({
+        "equilibrium": k,
+        "start": p.label,
+        "annual_global_mean_temperature_c": d.global_mean_c,
+        "annual_mean_ice_area_fraction": d.ice_area_fraction,
+        "annual_mean_state": d.state.label(),
+        "stable": p.unstable_modes == 0,
+        "unstable_modes": p.unstable_modes,
+        "largest_floquet_multipliers": top,
+        "periodicity_residual_k": p.residual,
+        "newton_iterations": p.iterations,
+        "spun_up_years_first": p.spun_up_years,
+        "toa_net_annual_mean_wm2": c.toa_annual_mean,
+        "ice_extent": {
+            "min": {"day_of_year": dmin, "ice_area_fraction": fmin},
+            "max": {"day_of_year": dmax, "ice_area_fraction": fmax},
+        },
+        "seasonal_amplitude_max_k": c.amplitude.iter().fold(0.0f64, |m, a| m.max(*a)),
+    })
+}
+
+/// `icefold periodic [SCENARIO] [--start FILE]`: the periodic climates of
+/// the seasonal model by shooting from warm and cold starts (and a profile
+/// or state file), each with its Floquet stability. Writes
+/// `seasonal_cycle.csv` (`equilibrium`, `latitude_deg`, `day_of_year`,
+/// `temperature_c`, `ice`), `seasonal_cycle.nc` (CF NetCDF),
+/// `seasonal_cycle_K.svg/.png` (latitude-time temperature with the ice
+/// edges), `annual_mean.csv` and `profiles.svg/.png` (annual-mean profiles),
+/// `summary.json` (with the minimum and maximum ice extent and their days)
+/// and `scenario.toml`.
+pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
+    let sc = load(args)?;
+    let mut sm = SeasonalModel::from_scenario(&sc).map_err(seasonal_error)?;
+    let n = sm.len();
+    let mut starts = standard_starts(n, sc.num("solver.warm_start"), sc.num("solver.cold_start"));
+    if let Some(p) = &args.start {
+        starts.push(read_start(p, sm.model())?);
+    }
+    let search = find_periodic(&mut sm, &starts, &ShootingOptions::default());
+    for (label, err) in &search.failures {
+        if !args.quiet {
+            eprintln!("icefold: start `{label}` did not reach a periodic climate: {err}");
+        }
+    }
+    if search.climates.is_empty() {
+        let why: Vec<String> = search
+            .failures
+            .iter()
+            .map(|(l, e)| format!("{l}: {e}"))
+            .collect();
+        return Err(CliError::Failed(format!(
+            "no periodic climate found; nothing written ({})",
+            why.join("; ")
+        )));
+    }
+    let mut cycles = Vec::new();
+    for p in &search.climates {
+        cycles.push(cycle(&mut sm, &p.start).map_err(seasonal_error)?);
+    }
+    let annual_model = sm.annual_model();
+    let steps = sm.steps_per_year();
+    let lat = annual_model.grid.latitudes_deg();
+    let days: Vec<f64> = (0..steps)
+        .map(|k| k as f64 / steps as f64 * DAYS_PER_YEAR)
+        .collect();
+    let threshold = annual_model.planet.albedo.threshold;
+    let dir = out_dir(args);
+    let mut out = OutputSet::new();
+    let mut long = Table::new(&[
+        "equilibrium",
+        "latitude_deg",
+        "day_of_year",
+        "temperature_c",
+        "ice",
+    ]);
+    let mut annual = Table::new(&[
+        "equilibrium",
+        "latitude_deg",
+        "temperature_c",
+        "seasonal_amplitude_k",
+    ]);
+    let neq = cycles.len();
+    let mut nc_t = Vec::with_capacity(neq * steps * n);
+    let mut nc_ice = Vec::with_capacity(neq * steps * n);
+    let mut nc_mean = Vec::with_capacity(neq * n);
+    let mut curves = Vec::new();
+    let mut climates_json = Vec::new();
+    for (e, (p, c)) in search.climates.iter().zip(&cycles).enumerate() {
+        for i in 0..n {
+            for k in 0..steps {
+                let t = c.states[k][i];
+                long.push_row(vec![
+                    Cell::Int(e as i64 + 1),
+                    Cell::Num(lat[i]),
+                    Cell::Num(days[k]),
+                    Cell::Num(t),
+                    Cell::Bool(t < threshold),
+                ]);
+            }
+            annual.push_row(vec![
+                Cell::Int(e as i64 + 1),
+                Cell::Num(lat[i]),
+                Cell::Num(c.annual_mean[i]),
+                Cell::Num(c.amplitude[i]),
+            ]);
+        }
+        for k in 0..steps {
+            for i in 0..n {
+                nc_t.push(c.states[k][i]);
+                nc_ice.push(i32::from(c.states[k][i] < threshold));
+            }
+        }
+        nc_mean.extend_from_slice(&c.annual_mean);
+        // latitude x day field: values[j * days + k] at (day k, latitude j)
+        let mut field = vec![0.0; n * steps];
+        for k in 0..steps {
+            for j in 0..n {
+                field[j * steps + k] = c.states[k][j];
+            }
+        }
+        let d = diagnose(&annual_model, &c.annual_mean);
+        let fig = plot::field_figure(
+            &format!(
+                "Periodic climate {} ({}): {}",
+                e + 1,
+                d.state.label(),
+                sc.name()
+            ),
+            "day of year (0 = northern spring equinox)",
+            "latitude (deg)",
+            "temperature (C)",
+            &days,
+            &lat,
+            &field,
+            &edge_lines(c),
+        )?;
+        out.add(dir.join(format!("seasonal_cycle_{}.svg", e + 1)), fig.svg);
+        out.add(dir.join(format!("seasonal_cycle_{}.png", e + 1)), fig.png);
+        let fl = annual_model.band_fluxes(&c.annual_mean);
+        let albedo: Vec<f64> = fl
+            .insolation
+            .iter()
+            .zip(&fl.absorbed)
+            .map(|(s, a)| if *s > 0.0 { 1.0 - a / s } else { 0.0 })
+            .collect();
+        curves.push(plot::ProfileCurve {
+            label: format!("{} ({}, annual mean)", e + 1, d.state.label()),
+            latitude_deg: lat.clone(),
+            temperature_c: c.annual_mean.clone(),
+            albedo,
+            ice_edges_deg: d.ice_edges_deg.clone(),
+            stable: p.unstable_modes == 0,
+        });
+        climates_json.push(climate_json(e + 1, p, c, &d));
+    }
+    let mut nc = NcFile::new();
+    nc.add_dim("equilibrium", neq)?;
+    nc.add_dim("time", steps)?;
+    nc.add_dim("lat", n)?;
+    let v = nc.add_var_f64("lat", &["lat"], lat.clone())?;
+    nc.var_attr_text(v, "units", "degrees_north");
+    nc.var_attr_text(v, "long_name", "latitude of the band centre");
+    nc.var_attr_text(v, "standard_name", "latitude");
+    let v = nc.add_var_f64("time", &["time"], days.clone())?;
+    nc.var_attr_text(v, "units", "days");
+    nc.var_attr_text(
+        v,
+        "long_name",
+        "day of the model year (0 = northern spring equinox; 365-day year)",
+    );
+    let v = nc.add_var_i32("equilibrium", &["equilibrium"], (1..=neq as i32).collect())?;
+    nc.var_attr_text(v, "long_name", "periodic climate number (warmest first)");
+    let v = nc.add_var_f64("temperature", &["equilibrium", "time", "lat"], nc_t)?;
+    nc.var_attr_text(v, "units", "degC");
+    nc.var_attr_text(v, "long_name", "zonal-mean surface temperature");
+    let v = nc.add_var_i32("ice", &["equilibrium", "time", "lat"], nc_ice)?;
+    nc.var_attr_text(
+        v,
+        "long_name",
+        "ice-covered band centre (temperature below albedo.threshold)",
+    );
+    nc.var_attr_i32(v, "flag_values", &[0, 1]);
+    nc.var_attr_text(v, "flag_meanings", "open ice");
+    let v = nc.add_var_f64("annual_mean_temperature", &["equilibrium", "lat"], nc_mean)?;
+    nc.var_attr_text(v, "units", "degC");
+    nc.var_attr_text(v, "long_name", "annual-mean zonal-mean surface temperature");
+    let v = nc.add_var_i32(
+        "unstable_modes",
+        &["equilibrium"],
+        search
+            .climates
+            .iter()
+            .map(|p| p.unstable_modes.min(i32::MAX as usize) as i32)
+            .collect(),
+    )?;
+    nc.var_attr_text(
+        v,
+        "long_name",
+        "Floquet multipliers with modulus above one (0 = stable)",
+    );
+    nc.global_attr_text("Conventions", "CF-1.8");
+    nc.global_attr_text("title", &format!("Periodic climates of {}", sc.name()));
+    nc.global_attr_text("scenario", sc.name());
+    nc.global_attr_text("scenario_source", &sc.source);
+    nc.global_attr_text("source", &format!("icefold {}", crate::cli::VERSION));
+    nc.global_attr_text("history", &args.line);
+    nc.global_attr_i32("steps_per_year", &[steps.min(i32::MAX as usize) as i32]);
+    let mut summary = provenance(&sc, args);
+    summary.insert("steps_per_year".into(), steps.into());
+    summary.insert("periodic_climates".into(), climates_json.into());
+    summary.insert(
+        "failed_starts".into(),
+        search
+            .failures
+            .iter()
+            .map(|(l, e)| serde_json::json!({"start": l, "reason": e.to_string()}))
+            .collect(),
+    );
+    let fig = plot::profile_figure(
+        &format!(
+            "Annual-mean profiles of the periodic climates: {}",
+            sc.name()
+        ),
+        &curves,
+    )?;
+    out.add_table(dir.join("seasonal_cycle.csv"), &long)?;
+    out.add(dir.join("seasonal_cycle.nc"), nc.to_bytes()?);
+    out.add_table(dir.join("annual_mean.csv"), &annual)?;
+    out.add(dir.join("profiles.svg"), fig.svg);
+    out.add(dir.join("profiles.png"), fig.png);
+    out.add_text(
+        dir.join("summary.json"),
+        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
+    );
+    out.add_text(dir.join("scenario.toml"), &sc.to_toml());
+    let written = out.commit()?;
+    let mut s = format!(
+        "{}: {} periodic climates ({steps} steps per year)\n",
+        sc.name(),
+        neq
+    );
+    s += "  #  annual state      mean C   ice min (day)     ice max (day)     stable  |mu|max  residual K\n";
+    for (e, (p, c)) in search.climates.iter().zip(&cycles).enumerate() {
+        let d = diagnose(&annual_model, &c.annual_mean);
+        let ((dmin, fmin), (dmax, fmax)) = c.ice_extremes();
+        let mu = p.multipliers.first().map_or(0.0, |(r, i)| r.hypot(*i));
+        s += &format!(
+            "  {:<2} {:<16} {:>7.3}   {:.4} ({:>5.1})   {:.4} ({:>5.1})   {:<6}  {:.4}   {:.1e}\n",
+            e + 1,
+            d.state.label(),
+            d.global_mean_c,
+            fmin,
+            dmin,
+            fmax,
+            dmax,
+            if p.unstable_modes == 0 { "yes" } else { "no" },
+            mu,
+            p.residual
+        );
+    }
+    s += &written_list(&written);
+    Ok(s)
+}
