@@ -520,7 +520,13 @@ fn cmd_figures(args: &Args) -> Result<String, CliError> {
         .clone()
         .unwrap_or_else(|| PathBuf::from("figures"));
     let mut s = String::new();
-    for (cmd, sub) in [("trace", "trace"), ("solve", "solve"), ("sun", "sun")] {
+    for (cmd, sub) in [
+        ("trace", "trace"),
+        ("solve", "solve"),
+        ("sun", "sun"),
+        ("map", "map"),
+        ("periodic", "periodic"),
+    ] {
         let a = Args {
             command: cmd.into(),
             out: Some(dir.join(sub)),

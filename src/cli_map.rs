@@ -368,7 +368,7 @@ fn render(
     let bistable: Vec<bool> = count.iter().map(|c| *c >= 2).collect();
     let lines: Vec<(String, Vec<(f64, f64)>)> = bounds
         .iter()
-        .filter(|b| b.points.len() >= 2)
+        .filter(|b| b.points.len() >= 2 && crate::sweep::is_transition(&b.transition))
         .map(|b| (b.transition.clone(), b.points.clone()))
         .collect();
     let fig = plot::regime_figure(

@@ -104,7 +104,18 @@ pub fn newton(
     let n = model.len();
     model.evaluate(t, &mut ws.f, Some(&mut ws.jac));
     let mut res = max_abs(&ws.f);
+    // stall detection: the best residual must halve every 20 iterations
+    let (mut best, mut best_iter) = (res, 0usize);
     for iter in 0..opts.max_iterations {
+        if res < 0.5 * best {
+            best = res;
+            best_iter = iter;
+        } else if iter >= best_iter + 20 && res >= opts.tolerance {
+            return Err(SolveError::NewtonStalled {
+                iterations: iter,
+                residual: res,
+            });
+        }
         if !res.is_finite() {
             return Err(SolveError::NonFinite);
         }

@@ -246,6 +246,25 @@ pub fn compute_slice(
     reduce(spec, j, a, &h)
 }
 
+/// The label of the boundary a fold lies on: `from -> to` for a fold that
+/// ends a stable climate, `unstable-branch fold` for a turning point
+/// between unstable states (it bounds no stable climate).
+pub fn transition_label(f: &MapFold) -> String {
+    if f.to_state == "none" {
+        "unstable-branch fold".into()
+    } else {
+        format!("{} -> {}", f.from_state, f.to_state)
+    }
+}
+
+/// Whether a boundary separates regimes (drawn on the map figure).
+pub fn is_transition(label: &str) -> bool {
+    match label.split_once(" -> ") {
+        Some((a, b)) => a != b,
+        None => false,
+    }
+}
+
 /// A boundary curve in the (across, vary) plane.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Boundary {
@@ -268,9 +287,7 @@ pub fn join_boundaries(slices: &[Slice]) -> Vec<Boundary> {
         let mut by: std::collections::BTreeMap<String, Vec<f64>> =
             std::collections::BTreeMap::new();
         for f in &s.folds {
-            by.entry(format!("{} -> {}", f.from_state, f.to_state))
-                .or_default()
-                .push(f.value);
+            by.entry(transition_label(f)).or_default().push(f.value);
         }
         for v in by.values_mut() {
             v.sort_by(f64::total_cmp);
