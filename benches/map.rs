@@ -22,6 +22,7 @@ fn main() {
         vary_from: 0.8 * flux,
         vary_to: 1.15 * flux,
         cells: 200,
+        fold_curves: false,
     };
     let run = |threads: usize| -> (f64, Vec<Slice>) {
         let pool = rayon::ThreadPoolBuilder::new()

@@ -70,6 +70,7 @@ OPTIONS:
     --cells N         (map) cells of the regular summary grid (default 200)
     --threads N       (map) worker threads (default: all cores); results do not depend on it
     --shard K/N       (map) compute only slices K, K+N, ... and write a shard file
+    --fold-curves     (map) also continue each boundary's fold in two parameters
     --quiet           no progress on stderr
     -h, --help        this text
 ";
@@ -105,6 +106,8 @@ pub struct Args {
     pub shard: Option<String>,
     /// `--years N` (run).
     pub years: Option<String>,
+    /// `--fold-curves` (map).
+    pub fold_curves: bool,
     /// Further positional arguments (merge: shard directories).
     pub rest: Vec<PathBuf>,
     /// The command line as given (provenance).
@@ -133,6 +136,7 @@ pub fn parse_args(argv: &[String]) -> Result<Args, CliError> {
             "--from" => a.from = Some(value("--from", &mut it)?),
             "--to" => a.to = Some(value("--to", &mut it)?),
             "--quiet" | "-q" => a.quiet = true,
+            "--fold-curves" => a.fold_curves = true,
             "--across" => a.across = Some(value("--across", &mut it)?),
             "--cells" => a.cells = Some(value("--cells", &mut it)?),
             "--threads" => a.threads = Some(value("--threads", &mut it)?),

@@ -144,6 +144,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         vary_from: v_from,
         vary_to: v_to,
         cells,
+        fold_curves: args.fold_curves,
     };
     let indices: Vec<usize> = (0..count)
         .filter(|j| shard.is_none_or(|(k, n)| j % n == k))
@@ -206,6 +207,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         ));
     }
     render(
+        &model,
         &spec,
         &sc.to_json(),
         &sc.to_toml(),
@@ -245,12 +247,21 @@ fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
     s
 }
 
+fn scenario_num(scenario: &serde_json::Value, key: &str, default: f64) -> f64 {
+    scenario
+        .get(key)
+        .and_then(|v| v.as_f64())
+        .unwrap_or(default)
+}
+
 fn sanitize(key: &str) -> String {
     key.replace('.', "_")
 }
 
 /// Renders the files of a complete map into `out` (staged, not written).
+#[allow(clippy::too_many_arguments)]
 fn render(
+    model: &crate::model::Model,
     spec: &MapSpec,
     scenario: &serde_json::Value,
     scenario_toml: &str,
@@ -290,7 +301,21 @@ fn render(
     }
     out.add_table(dir.join("map.csv"), &t)?;
     // boundaries.csv
-    let bounds = join_boundaries(slices);
+    let mut bounds = join_boundaries(slices);
+    if spec.fold_curves {
+        let (ap, vp) = (
+            Param::from_key(ak).expect("validated key"),
+            Param::from_key(vk).expect("validated key"),
+        );
+        let (warm, cold) = (
+            scenario_num(scenario, "solver.warm_start", 30.0),
+            scenario_num(scenario, "solver.cold_start", -60.0),
+        );
+        let tol = scenario_num(scenario, "solver.tolerance", 1e-10);
+        let extra =
+            crate::sweep::continue_boundaries(model, spec, ap, vp, &bounds, warm, cold, tol);
+        bounds.extend(extra);
+    }
     let mut bt = Table::new(&["curve", "method", "transition", ak, vk]);
     for (k, b) in bounds.iter().enumerate() {
         for (a, v) in &b.points {
@@ -528,7 +553,11 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         .clone()
         .unwrap_or_else(|| PathBuf::from("out").join("map"));
     let mut out = OutputSet::new();
+    let model = crate::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
+        .map_err(|e| usage(format!("shard scenario: {e}")))?
+        .model();
     render(
+        &model,
         &meta.spec,
         &meta.scenario,
         &meta.scenario_toml,

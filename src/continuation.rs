@@ -638,6 +638,36 @@ impl<'a, P: Problem> Tracer<'a, P> {
     /// Traces the whole branch through the solution (u0, p0) in both
     /// directions and locates its folds.
     pub fn trace(&mut self, u0: &[f64], p0: f64) -> Result<Branch, Singular> {
+        let (points, ends) = self.trace_points(u0, p0)?;
+        let mut folds = Vec::new();
+        for k in 0..points.len().saturating_sub(1) {
+            let (a, b) = (&points[k], &points[k + 1]);
+            if a.tp == 0.0 || (a.tp > 0.0) != (b.tp > 0.0) {
+                let (a, b) = (a.clone(), b.clone());
+                if let Some(f) = self.refine_fold(&a, &b) {
+                    folds.push(FoldPoint { point: f, after: k });
+                }
+            }
+        }
+        Ok(Branch {
+            points,
+            folds,
+            ends,
+        })
+    }
+
+    /// Traces the curve through (u0, p0) in both directions without
+    /// locating folds; returns the (state, parameter) points in order.
+    pub fn trace_curve(&mut self, u0: &[f64], p0: f64) -> Result<Vec<(Vec<f64>, f64)>, Singular> {
+        let (points, _) = self.trace_points(u0, p0)?;
+        Ok(points.into_iter().map(|q| (q.u, q.p)).collect())
+    }
+
+    fn trace_points(
+        &mut self,
+        u0: &[f64],
+        p0: f64,
+    ) -> Result<(Vec<Point>, [EndReason; 2]), Singular> {
         let n = u0.len();
         // initial tangent: orient towards increasing p
         let e_u = vec![0.0; n];
@@ -661,20 +691,6 @@ impl<'a, P: Problem> Tracer<'a, P> {
         }
         points.push(start);
         points.extend(fwd);
-        let mut folds = Vec::new();
-        for k in 0..points.len().saturating_sub(1) {
-            let (a, b) = (&points[k], &points[k + 1]);
-            if a.tp == 0.0 || (a.tp > 0.0) != (b.tp > 0.0) {
-                let (a, b) = (a.clone(), b.clone());
-                if let Some(f) = self.refine_fold(&a, &b) {
-                    folds.push(FoldPoint { point: f, after: k });
-                }
-            }
-        }
-        Ok(Branch {
-            points,
-            folds,
-            ends: [end_bwd, end_fwd],
-        })
+        Ok((points, [end_bwd, end_fwd]))
     }
 }

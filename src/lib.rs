@@ -10,6 +10,7 @@ pub mod cli_trace;
 pub mod climate;
 pub mod continuation;
 pub mod export;
+pub mod foldcurve;
 pub mod grid;
 pub mod insolation;
 pub mod linalg;

@@ -26,6 +26,9 @@ pub struct MapSpec {
     pub vary_to: f64,
     /// Cells of the regular summary grid along the traced axis.
     pub cells: usize,
+    /// Also continue each boundary's fold in two parameters.
+    #[serde(default)]
+    pub fold_curves: bool,
 }
 
 impl MapSpec {
@@ -42,8 +45,13 @@ impl MapSpec {
     /// The command that reproduces this map (without output, threads or
     /// shard options): the same in every shard and in a single run.
     pub fn command(&self) -> String {
+        let extra = if self.fold_curves {
+            " --fold-curves"
+        } else {
+            ""
+        };
         format!(
-            "icefold map --across {}={}:{}:{} --vary {} --from {} --to {} --cells {}",
+            "icefold map --across {}={}:{}:{} --vary {} --from {} --to {} --cells {}{extra}",
             self.across,
             self.across_from,
             self.across_to,
@@ -319,4 +327,87 @@ pub fn join_boundaries(slices: &[Slice]) -> Vec<Boundary> {
             .then(a.points[0].1.total_cmp(&b.points[0].1))
     });
     done
+}
+
+/// Continues, in two parameters, the fold at the start of every slice-joined
+/// transition boundary (see [`crate::foldcurve`]), skipping boundaries that
+/// an earlier continued curve already passes through. Returns curves with
+/// method "fold-continuation".
+#[allow(clippy::too_many_arguments)]
+pub fn continue_boundaries(
+    model: &Model,
+    spec: &MapSpec,
+    across: Param,
+    vary: Param,
+    bounds: &[Boundary],
+    warm: f64,
+    cold: f64,
+    tol: f64,
+) -> Vec<Boundary> {
+    let mut out: Vec<Boundary> = Vec::new();
+    let width = (spec.vary_to - spec.vary_from).abs();
+    for b in bounds
+        .iter()
+        .filter(|b| b.method == "slices" && is_transition(&b.transition) && b.points.len() >= 2)
+    {
+        let (a0, p0) = b.points[0];
+        let covered = out.iter().any(|c| {
+            c.transition == b.transition
+                && c.points
+                    .iter()
+                    .any(|(a, p)| (a - a0).abs() < 1e-9 && (p - p0).abs() < 1e-6 * width)
+                || c.points.windows(2).any(|w| {
+                    let ((a1, p1), (a2, p2)) = (w[0], w[1]);
+                    let (lo, hi) = (a1.min(a2), a1.max(a2));
+                    a0 >= lo && a0 <= hi && hi > lo && {
+                        let pi = p1 + (p2 - p1) * (a0 - a1) / (a2 - a1);
+                        (pi - p0).abs() < 1e-4 * width
+                    }
+                })
+        });
+        if covered {
+            continue;
+        }
+        let mut m = model.clone();
+        m.set_param(across, a0);
+        let h = trace_all(
+            &m,
+            vary,
+            spec.vary_from,
+            spec.vary_to,
+            warm,
+            cold,
+            &TraceOptions {
+                tolerance: tol,
+                ..TraceOptions::default()
+            },
+            &mut |_| {},
+        );
+        let Some(f) = h
+            .branches
+            .iter()
+            .flat_map(|br| br.folds.iter())
+            .find(|f| (f.point.p - p0).abs() <= 1e-9 * p0.abs().max(1.0))
+        else {
+            continue;
+        };
+        let pts = crate::foldcurve::trace_fold_curve(
+            &m,
+            vary,
+            across,
+            &f.point.temperature,
+            f.point.p,
+            (spec.across_from, spec.across_to),
+            (spec.vary_from, spec.vary_to),
+            tol,
+        );
+        if pts.len() >= 2 {
+            out.push(Boundary {
+                transition: b.transition.clone(),
+                method: "fold-continuation",
+                points: pts,
+            });
+        }
+    }
+    out
 }

@@ -127,6 +127,7 @@ fn slice_equals_independent_trace() {
         vary_from: 980.0,
         vary_to: 1400.0,
         cells: 20,
+        fold_curves: false,
     };
     let slice = compute_slice(
         &model,
@@ -194,4 +195,71 @@ fn bad_map_input_exits_2_and_writes_nothing() {
         assert_eq!(stderr.trim().lines().count(), 1, "{args:?}: {stderr}");
         assert!(!d.exists(), "{args:?} wrote output");
     }
+}
+
+/// A fold continued in two parameters (extended system, obliquity free)
+/// passes through the folds that independent traces locate at the same
+/// obliquities (our requirement; the fold is the minimum of the branch in
+/// flux, Budyko 1969 / North 1975), to 1e-8 relative, where the fold is
+/// smooth (away from the kinks of the sub-grid edge).
+#[test]
+fn fold_curve_passes_through_slice_folds() {
+    use icefold::foldcurve::trace_fold_curve;
+    let mut m = Scenario::load(None, &[]).unwrap().model();
+    m.set_param(Param::Obliquity, 18.0);
+    let (lo, hi) = (1070.0, 1540.0);
+    let h = trace_all(
+        &m,
+        Param::Flux,
+        lo,
+        hi,
+        30.0,
+        -60.0,
+        &TraceOptions::default(),
+        &mut |_| {},
+    );
+    let f = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .find(|f| f.point.p < 1250.0 && f.jump_to.is_some())
+        .expect("snowball fold");
+    let curve = trace_fold_curve(
+        &m,
+        Param::Flux,
+        Param::Obliquity,
+        &f.point.temperature,
+        f.point.p,
+        (15.0, 21.0),
+        (lo, hi),
+        1e-10,
+    );
+    assert!(curve.len() >= 3, "{curve:?}");
+    let mut checked = 0;
+    for &(a, p) in curve.iter().filter(|(a, _)| *a > 15.5 && *a < 20.5).take(3) {
+        let mut m2 = m.clone();
+        m2.set_param(Param::Obliquity, a);
+        let h2 = trace_all(
+            &m2,
+            Param::Flux,
+            lo,
+            hi,
+            30.0,
+            -60.0,
+            &TraceOptions::default(),
+            &mut |_| {},
+        );
+        let nearest = h2
+            .branches
+            .iter()
+            .flat_map(|b| b.folds.iter().map(|f| f.point.p))
+            .min_by(|x, y| (x - p).abs().total_cmp(&(y - p).abs()))
+            .unwrap();
+        assert!(
+            (nearest - p).abs() < 1e-8 * p,
+            "obliquity {a}: curve {p} slice {nearest}"
+        );
+        checked += 1;
+    }
+    assert!(checked >= 2);
 }
