@@ -194,8 +194,8 @@ impl Tridiagonal {
     /// counts them (Sylvester's law of inertia). Returns `None` when the
     /// matrix has a rank-one term or a negative product.
     pub fn count_positive_eigenvalues(&self, capacity: &[f64]) -> Option<usize> {
-        if self.rank_one.is_some() {
-            return None;
+        if let Some((u, v)) = &self.rank_one {
+            return self.count_positive_diagonal_plus_rank_one(u, v);
         }
         let n = self.len();
         let mut count = 0;
@@ -220,6 +220,42 @@ impl Tridiagonal {
                 count += 1;
             }
             q_prev = q;
+        }
+        Some(count)
+    }
+}
+
+impl Tridiagonal {
+    /// Positive eigenvalues of D⁻¹(diag(d) + γ 1 wᵀ) with w > 0 (relaxation
+    /// transport): W A = diag(w d) + γ w wᵀ is symmetric, so the spectrum is
+    /// real and, by Sylvester's law and the Schur complement of the bordered
+    /// matrix [[diag(w d), z], [zᵀ, -1]] (z = √γ w),
+    /// n₊ = #{d_i > 0} + [ -1 - γ Σ w_i/d_i > 0 ]. O(n). The capacities D
+    /// do not change the inertia (D⁻¹A is self-adjoint in the W D product).
+    /// `None` unless the off-diagonals vanish, u is constant and w > 0.
+    fn count_positive_diagonal_plus_rank_one(&self, u: &[f64], w: &[f64]) -> Option<usize> {
+        let n = self.len();
+        let gamma = *u.first()?;
+        if u.iter().any(|x| *x != gamma) || w.iter().any(|x| *x <= 0.0) || gamma < 0.0 {
+            return None;
+        }
+        if (1..n).any(|i| self.lower[i] != 0.0 || self.upper[i - 1] != 0.0) {
+            return None;
+        }
+        let mut count = 0;
+        let mut sum = 0.0;
+        for i in 0..n {
+            let mut d = self.diag[i];
+            if d == 0.0 {
+                d = -f64::EPSILON;
+            }
+            if d > 0.0 {
+                count += 1;
+            }
+            sum += w[i] / d;
+        }
+        if -1.0 - gamma * sum > 0.0 {
+            count += 1;
         }
         Some(count)
     }
@@ -288,6 +324,37 @@ mod tests {
                 })
                 .count();
             assert_eq!(a.count_positive_eigenvalues(&vec![1.0; n]), Some(expected));
+        }
+    }
+
+    #[test]
+    fn diagonal_plus_rank_one_count_matches_dense() {
+        // against a dense eigen-solve (faer), for several sign patterns
+        let n = 12;
+        for k in 0..6 {
+            let mut a = Tridiagonal::new(n);
+            let w: Vec<f64> = (0..n).map(|i| (1.0 + i as f64 * 0.3) / 20.0).collect();
+            for i in 0..n {
+                a.diag[i] = -3.0 + (i as f64 * 0.7 + k as f64).sin() * (1.0 + k as f64);
+            }
+            let gamma = 0.5 + k as f64;
+            a.rank_one = Some((vec![gamma; n], w.clone()));
+            let dense = faer::Mat::<f64>::from_fn(
+                n,
+                n,
+                |r, c| if r == c { a.diag[r] } else { 0.0 } + gamma * w[c],
+            );
+            let expected = dense
+                .eigenvalues()
+                .unwrap()
+                .iter()
+                .filter(|z| z.re > 0.0)
+                .count();
+            assert_eq!(
+                a.count_positive_eigenvalues(&vec![1.0; n]),
+                Some(expected),
+                "case {k}"
+            );
         }
     }
 }

@@ -236,6 +236,13 @@ pub struct Model {
     forcing: f64,
 }
 
+/// Width of the relaxation-transport edge ramp in band widths: the ramp
+/// factor of a band of width Δx is κ = 1 + RELAXATION_RAMP_BANDS Δx, so the
+/// ramp spans a few bands whatever the resolution and the convention of a
+/// sharp edge (T_s at the mean of the two sides) is approached as bands
+/// grow.
+pub const RELAXATION_RAMP_BANDS: f64 = 25.0;
+
 const GAUSS3: [(f64, f64); 3] = [
     (-0.774_596_669_241_483_4, 5.0 / 9.0),
     (0.0, 8.0 / 9.0),
@@ -463,6 +470,55 @@ impl Model {
                     self.half[2 * i].ice + self.half[2 * i + 1].ice,
                 );
                 let (f, df) = self.planet.albedo.ice_weight(t[i]);
+                if let Some(j) = jac {
+                    j.diag[i] += flux * (ice - open) * df / dx;
+                }
+                (open * (1.0 - f) + ice * f) / dx
+            }
+            AlbedoKind::Step if matches!(self.planet.transport, Transport::Relaxation { .. }) => {
+                // Relaxation transport makes T jump at the edge by
+                // J = S Δα/(B + γ), and the edge is fixed only by a
+                // convention: T_s at the mean of the two sides (Budyko 1969;
+                // Tung 2007). Ice fraction of the band
+                // f = clamp(1/2 + (T_s - T)/(κ J), 0, 1), κ = 1 + 25 Δx:
+                // at equilibrium f = 1/2 exactly where T_s is the mean of the
+                // open and ice temperatures, and the edge is spread over a
+                // (κ - 1)-wide range of that mean, so each band has one
+                // equilibrium and the edge moves continuously.
+                let (open, ice) = (
+                    self.half[2 * i].open + self.half[2 * i + 1].open,
+                    self.half[2 * i].ice + self.half[2 * i + 1].ice,
+                );
+                let gamma = match self.planet.transport {
+                    Transport::Relaxation { rate } => rate,
+                    Transport::Diffusive { .. } => 0.0,
+                };
+                let olr = Olr {
+                    law: self.planet.olr,
+                    forcing: self.forcing,
+                };
+                let b = olr.value_and_slope(self.planet.albedo.threshold).1;
+                let jump = flux * (open - ice) / dx / (b + gamma);
+                let kappa = 1.0 + RELAXATION_RAMP_BANDS * dx;
+                let (f, df) = if jump > 0.0 {
+                    let r = 0.5 + (self.planet.albedo.threshold - t[i]) / (kappa * jump);
+                    if r <= 0.0 {
+                        (0.0, 0.0)
+                    } else if r >= 1.0 {
+                        (1.0, 0.0)
+                    } else {
+                        (r, -1.0 / (kappa * jump))
+                    }
+                } else {
+                    (
+                        if t[i] < self.planet.albedo.threshold {
+                            1.0
+                        } else {
+                            0.0
+                        },
+                        0.0,
+                    )
+                };
                 if let Some(j) = jac {
                     j.diag[i] += flux * (ice - open) * df / dx;
                 }
@@ -699,7 +755,8 @@ impl Model {
     }
 
     /// ∂F/∂p at T into `out`. Analytic where F is linear in p (flux, CO2,
-    /// A, B, D, γ); otherwise a central difference with step 1e-6 of the
+    /// A, B, D, γ; not for the relaxation edge ramp, which depends on flux,
+    /// B and γ as well); otherwise a central difference with step 1e-6 of the
     /// parameter's scale, restoring the parameter bit for bit. `scratch`
     /// must have one entry per band.
     pub fn d_residual_d_param(
@@ -709,6 +766,21 @@ impl Model {
         out: &mut [f64],
         scratch: &mut [f64],
     ) {
+        // the relaxation edge ramp depends on flux, B, emissivity and γ too
+        let ramp = self.planet.albedo.kind == AlbedoKind::Step
+            && matches!(self.planet.transport, Transport::Relaxation { .. })
+            && matches!(
+                p,
+                Param::Flux | Param::OlrB | Param::Emissivity | Param::Relaxation
+            );
+        if ramp {
+            self.d_residual_fd(p, t, out, scratch);
+        } else {
+            self.d_residual_analytic(p, t, out, scratch);
+        }
+    }
+
+    fn d_residual_analytic(&mut self, p: Param, t: &[f64], out: &mut [f64], scratch: &mut [f64]) {
         let n = self.len();
         match p {
             Param::Flux => {
@@ -733,18 +805,22 @@ impl Model {
                 self.add_transport(t, out, None);
                 self.planet.transport = saved;
             }
-            _ => {
-                let v0 = self.param(p);
-                let h = 1e-6 * v0.abs().max(1.0);
-                self.set_param(p, v0 + h);
-                self.evaluate(t, out, None);
-                self.set_param(p, v0 - h);
-                self.evaluate(t, scratch, None);
-                self.set_param(p, v0);
-                for (o, s) in out.iter_mut().zip(scratch.iter()) {
-                    *o = (*o - s) / (2.0 * h);
-                }
-            }
+            _ => self.d_residual_fd(p, t, out, scratch),
+        }
+    }
+
+    /// Central difference of F in a parameter, step 1e-6 of its scale,
+    /// restoring the parameter bit for bit.
+    fn d_residual_fd(&mut self, p: Param, t: &[f64], out: &mut [f64], scratch: &mut [f64]) {
+        let v0 = self.param(p);
+        let h = 1e-6 * v0.abs().max(1.0);
+        self.set_param(p, v0 + h);
+        self.evaluate(t, out, None);
+        self.set_param(p, v0 - h);
+        self.evaluate(t, scratch, None);
+        self.set_param(p, v0);
+        for (o, s) in out.iter_mut().zip(scratch.iter()) {
+            *o = (*o - s) / (2.0 * h);
         }
     }
 

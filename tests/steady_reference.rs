@@ -220,16 +220,19 @@ fn warm_and_cold_starts_find_two_stable_climates() {
 /// set (Q = 343, A = 202, B = 1.9, gamma = 1.6 B, albedo 0.32/0.62,
 /// s2 = -0.482, T_s = -10 C). Closed form (tests/common/reference.rs):
 /// T(x) = (Q S(x)(1 - alpha(x)) - A + gamma Tbar)/(B + gamma) and
-/// Tbar = (Q abar(x_s) - A)/B. In this model T jumps at the edge by
-/// J = Q S Δα/(B + γ), and the published convention puts T_s at the mean of
-/// the two sides (θ = (T+ - T_s)/J = 1/2). icefold's sub-grid edge (linear
-/// interpolation of band temperatures) places T_s within θ ∈ [7/16, 9/16]
-/// (derived in the README's model notes). Checked: profile and global mean
-/// against the closed form for the model's own edge, and θ in that window.
+/// Tbar = (Q abar(x_s) - A)/B, with the published convention that T_s is
+/// the mean of the temperatures on the two sides of the edge (theta =
+/// (T+ - T_s)/J = 1/2, J the jump). icefold spreads the edge over a ramp
+/// of a few bands (README model notes). Checked: every band outside the
+/// ramp follows the closed-form profile for the model's global mean to
+/// 1e-9 K; the edge satisfies the convention (theta within 0.02 of 1/2);
+/// the global mean matches the closed form for the model's edge within
+/// 0.05 K (the ramp's smearing).
 #[test]
 fn relaxation_model_matches_budyko_1969() {
     let p = RelaxationParams::tung_2007();
     let q = 343.0;
+    let bands = 180;
     let sets = [
         "insolation.p2=-0.482",
         "orbit.flux=1372",
@@ -244,7 +247,6 @@ fn relaxation_model_matches_budyko_1969() {
         "grid.symmetric=true",
     ];
     let m = classic(&sets);
-    // start from the closed-form profile at the published-convention edge
     let xs0 = bisect(
         |x| common::reference::budyko_q_of_xs(&p, x) - q,
         0.7,
@@ -269,39 +271,53 @@ fn relaxation_model_matches_budyko_1969() {
     let d = &e.diagnostics;
     assert_eq!(d.state, State::PolarCaps);
     let xr = d.ice_edges_deg[0].to_radians().sin();
-    // global mean and profile of the closed form for the model's own edge
-    let tbar = budyko_global_mean(&p, q, xr);
-    assert!(
-        (d.global_mean_c - tbar).abs() < 1e-9,
-        "{} vs {tbar}",
-        d.global_mean_c
-    );
-    let h = 1.0 / 180.0;
-    for (i, (x, t)) in m.grid.centres.iter().zip(&e.temperature).enumerate() {
-        if (x - xr).abs() > 1.5 * h {
-            // band average of the closed form (3-point Gauss, exact for its quadratic)
-            let (lo, hi) = (m.grid.faces[i], m.grid.faces[i + 1]);
-            let exact: f64 = [
-                (-0.6f64.sqrt(), 5.0 / 9.0),
-                (0.0, 8.0 / 9.0),
-                (0.6f64.sqrt(), 5.0 / 9.0),
-            ]
+    let tbar = d.global_mean_c;
+    let (b, g) = (1.9, 3.04);
+    let fl = m.band_fluxes(&e.temperature);
+    let mut outside = 0;
+    for i in 0..bands {
+        let (lo, hi) = (m.grid.faces[i], m.grid.faces[i + 1]);
+        let gauss = [
+            (-0.6f64.sqrt(), 5.0 / 9.0),
+            (0.0, 8.0 / 9.0),
+            (0.6f64.sqrt(), 5.0 / 9.0),
+        ];
+        let s_avg: f64 = gauss
             .iter()
             .map(|(s, w)| {
-                0.5 * w * budyko_temperature(&p, q, xr, 0.5 * (lo + hi) + 0.5 * (hi - lo) * s)
+                0.5 * w
+                    * (1.0 - 0.482 * (1.5 * (0.5 * (lo + hi) + 0.5 * (hi - lo) * s).powi(2) - 0.5))
             })
             .sum();
-            assert!((t - exact).abs() < 1e-9, "x={x}: {t} vs {exact}");
+        let coalb = 1.0 - (fl.absorbed[i] / fl.insolation[i]);
+        let full = (coalb - 0.32).abs() < 1e-12 || (coalb - 0.62).abs() < 1e-12;
+        if full {
+            let a = if (coalb - 0.32).abs() < 1e-12 {
+                0.68
+            } else {
+                0.38
+            };
+            let exact = (q * s_avg * a - 202.0 + g * tbar) / (b + g);
+            assert!(
+                (e.temperature[i] - exact).abs() < 1e-9,
+                "band {i}: {} vs {exact}",
+                e.temperature[i]
+            );
+            outside += 1;
         }
     }
-    // edge condition within the sub-grid window
-    let (b, g) = (1.9, 3.04);
+    assert!(
+        outside > bands - 20,
+        "only {outside} bands outside the ramp"
+    );
     let s = 1.0 - 0.482 * (1.5 * xr * xr - 0.5);
     let t_plus = (q * s * 0.68 - 202.0 + g * tbar) / (b + g);
     let jump = q * s * 0.30 / (b + g);
     let theta = (t_plus - (-10.0)) / jump;
-    assert!((theta - 0.5).abs() <= 0.0625 + 1e-9, "theta = {theta}");
-    // and the edge lies within the latitude window that θ allows around
-    // the published-convention edge
-    assert!((xr - xs0).abs() < 0.02, "edge x {xr} vs closed form {xs0}");
+    assert!((theta - 0.5).abs() < 0.02, "theta = {theta}");
+    let tbar_cf = budyko_global_mean(&p, q, xr);
+    assert!(
+        (tbar - tbar_cf).abs() < 0.05,
+        "global mean {tbar} vs closed form {tbar_cf}"
+    );
 }
