@@ -457,6 +457,49 @@ impl Model {
         }
     }
 
+    /// Ice fraction f and df/dT of band i under the relaxation edge ramp:
+    /// f = clamp(1/2 + (T_s - T)/(κ J), 0, 1), J = S0 (open - ice)/Δx/(B + γ)
+    /// the local temperature jump, κ = 1 + RELAXATION_RAMP_BANDS Δx.
+    fn relaxation_ice_fraction(&self, i: usize, ti: f64) -> (f64, f64) {
+        let flux = self.planet.orbit.flux;
+        let dx = self.grid.width(i);
+        let (open, ice) = (
+            self.half[2 * i].open + self.half[2 * i + 1].open,
+            self.half[2 * i].ice + self.half[2 * i + 1].ice,
+        );
+        let gamma = match self.planet.transport {
+            Transport::Relaxation { rate } => rate,
+            Transport::Diffusive { .. } => 0.0,
+        };
+        let olr = Olr {
+            law: self.planet.olr,
+            forcing: self.forcing,
+        };
+        let b = olr.value_and_slope(self.planet.albedo.threshold).1;
+        let jump = flux * (open - ice) / dx / (b + gamma);
+        let kappa = 1.0 + RELAXATION_RAMP_BANDS * dx;
+        let (f, df) = if jump > 0.0 {
+            let r = 0.5 + (self.planet.albedo.threshold - ti) / (kappa * jump);
+            if r <= 0.0 {
+                (0.0, 0.0)
+            } else if r >= 1.0 {
+                (1.0, 0.0)
+            } else {
+                (r, -1.0 / (kappa * jump))
+            }
+        } else {
+            (
+                if ti < self.planet.albedo.threshold {
+                    1.0
+                } else {
+                    0.0
+                },
+                0.0,
+            )
+        };
+        (f, df)
+    }
+
     /// Absorbed flux per unit S0 in band i and its derivative terms. Adds
     /// the Jacobian entries (times `flux / Δx`) to `jac` when given.
     #[inline]
@@ -489,36 +532,7 @@ impl Model {
                     self.half[2 * i].open + self.half[2 * i + 1].open,
                     self.half[2 * i].ice + self.half[2 * i + 1].ice,
                 );
-                let gamma = match self.planet.transport {
-                    Transport::Relaxation { rate } => rate,
-                    Transport::Diffusive { .. } => 0.0,
-                };
-                let olr = Olr {
-                    law: self.planet.olr,
-                    forcing: self.forcing,
-                };
-                let b = olr.value_and_slope(self.planet.albedo.threshold).1;
-                let jump = flux * (open - ice) / dx / (b + gamma);
-                let kappa = 1.0 + RELAXATION_RAMP_BANDS * dx;
-                let (f, df) = if jump > 0.0 {
-                    let r = 0.5 + (self.planet.albedo.threshold - t[i]) / (kappa * jump);
-                    if r <= 0.0 {
-                        (0.0, 0.0)
-                    } else if r >= 1.0 {
-                        (1.0, 0.0)
-                    } else {
-                        (r, -1.0 / (kappa * jump))
-                    }
-                } else {
-                    (
-                        if t[i] < self.planet.albedo.threshold {
-                            1.0
-                        } else {
-                            0.0
-                        },
-                        0.0,
-                    )
-                };
+                let (f, df) = self.relaxation_ice_fraction(i, t[i]);
                 if let Some(j) = jac {
                     j.diag[i] += flux * (ice - open) * df / dx;
                 }
@@ -912,6 +926,14 @@ impl Model {
     /// domain length (step law), or Σ w_i f(T_i) (smooth law).
     pub fn ice_area_fraction(&self, t: &[f64]) -> f64 {
         match self.planet.albedo.kind {
+            AlbedoKind::Step if matches!(self.planet.transport, Transport::Relaxation { .. }) => {
+                self.grid
+                    .weights
+                    .iter()
+                    .enumerate()
+                    .map(|(i, w)| w * self.relaxation_ice_fraction(i, t[i]).0)
+                    .sum()
+            }
             AlbedoKind::Step => {
                 let span = self.grid.faces[self.len()] - self.grid.faces[0];
                 self.ice_intervals(t)
