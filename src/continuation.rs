@@ -234,9 +234,11 @@ impl<'a, P: Problem> Tracer<'a, P> {
         let mut rhs_s = s;
         ws.tmp.copy_from_slice(&ws.r);
         for pass in 0..2 {
-            // b = J⁻¹ F_p, z = J⁻¹ r
-            ws.b.copy_from_slice(&ws.fp);
-            self.problem.solve(&mut ws.b);
+            // b = J⁻¹ F_p (once: the same in both passes), z = J⁻¹ r
+            if pass == 0 {
+                ws.b.copy_from_slice(&ws.fp);
+                self.problem.solve(&mut ws.b);
+            }
             self.problem.solve(&mut ws.tmp);
             let c_z: f64 = (0..n).map(|i| wu * tu[i] * ws.tmp[i]).sum();
             let c_b: f64 = (0..n).map(|i| wu * tu[i] * ws.b[i]).sum();
@@ -622,7 +624,9 @@ impl<'a, P: Problem> Tracer<'a, P> {
                     if better {
                         best = Some(pt);
                     }
-                    if tp.abs() < 1e-13 {
+                    // p near a fold is quadratic in arclength: |t_p| < 1e-10
+                    // puts the fold value within ~1e-20 relative of the extremum
+                    if tp.abs() < 1e-10 {
                         break;
                     }
                 }
