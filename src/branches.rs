@@ -416,8 +416,9 @@ pub fn resolve_jumps(branches: &mut [TracedBranch], width: f64) {
     }
 }
 
-/// Parameter intervals covered by two or more stable segments.
-fn bistable_windows(branches: &[TracedBranch], lo: f64, hi: f64) -> Vec<(f64, f64)> {
+/// Parameter intervals covered by two or more stable segments (each
+/// segment extended to the folds that bound it).
+pub fn bistable_windows(branches: &[TracedBranch], lo: f64, hi: f64) -> Vec<(f64, f64)> {
     let mut intervals: Vec<(f64, f64)> = Vec::new();
     for b in branches {
         let mut k = 0;

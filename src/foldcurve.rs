@@ -40,21 +40,6 @@ pub struct FoldCurveProblem {
     a: faer::Mat<f64>,
 }
 
-fn dense(j: &Tridiagonal, r: usize, c: usize) -> f64 {
-    let mut v = 0.0;
-    if r == c {
-        v += j.diag[r];
-    } else if c + 1 == r {
-        v += j.lower[r];
-    } else if r + 1 == c {
-        v += j.upper[r];
-    }
-    if let Some((u, w)) = &j.rank_one {
-        v += u[r] * w[c];
-    }
-    v
-}
-
 fn unit(mut v: Vec<f64>) -> Vec<f64> {
     let n = v.iter().map(|x| x * x).sum::<f64>().sqrt();
     if n > 0.0 && n.is_finite() {
@@ -115,7 +100,7 @@ impl FoldCurveProblem {
     fn null_vectors(&self) -> Option<(Vec<f64>, Vec<f64>, f64)> {
         let n = self.model.len();
         let m = faer::Mat::<f64>::from_fn(n + 1, n + 1, |r, c| match (r < n, c < n) {
-            (true, true) => dense(&self.jac, r, c),
+            (true, true) => self.jac.entry(r, c),
             (true, false) => self.b[r],
             (false, true) => self.c[c],
             (false, false) => 0.0,
@@ -206,7 +191,7 @@ impl Problem for FoldCurveProblem {
         self.model.set_param(self.vary, p);
         let sigma = self.sigma;
         self.a = faer::Mat::from_fn(n + 1, n + 1, |r, c| match (r < n, c < n) {
-            (true, true) => dense(&jac, r, c),
+            (true, true) => jac.entry(r, c),
             (true, false) => fp[r] * sigma,
             (false, true) => gu[c],
             (false, false) => gp,

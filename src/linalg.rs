@@ -60,6 +60,22 @@ impl Tridiagonal {
         self.diag.is_empty()
     }
 
+    /// Entry A(r, c), including the rank-one term.
+    pub fn entry(&self, r: usize, c: usize) -> f64 {
+        let mut v = 0.0;
+        if r == c {
+            v += self.diag[r];
+        } else if c + 1 == r {
+            v += self.lower[r];
+        } else if r + 1 == c {
+            v += self.upper[r];
+        }
+        if let Some((u, w)) = &self.rank_one {
+            v += u[r] * w[c];
+        }
+        v
+    }
+
     /// Sets every entry (and the rank-one term, if any) to zero.
     pub fn clear(&mut self) {
         self.lower.fill(0.0);

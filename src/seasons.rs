@@ -1383,7 +1383,7 @@ pub fn trace_seasonal(
             ends: b.ends.clone(),
         });
     }
-    let bistable = stable_overlaps(&branches, lo, hi);
+    let bistable = crate::branches::bistable_windows(&branches, lo, hi);
     Hysteresis {
         param,
         range: (lo, hi),
@@ -1391,49 +1391,6 @@ pub fn trace_seasonal(
         bistable,
         failures,
     }
-}
-
-/// Parameter intervals covered by two or more stable segments (each
-/// segment extended to the folds that bound it).
-fn stable_overlaps(branches: &[TracedBranch], lo: f64, hi: f64) -> Vec<(f64, f64)> {
-    let mut events: Vec<(f64, i32)> = Vec::new();
-    for b in branches {
-        let mut k = 0;
-        while k < b.points.len() {
-            if b.points[k].unstable_modes != 0 {
-                k += 1;
-                continue;
-            }
-            let start = k;
-            while k + 1 < b.points.len() && b.points[k + 1].unstable_modes == 0 {
-                k += 1;
-            }
-            let seg = &b.points[start..=k];
-            let mut a = seg.iter().map(|q| q.p).fold(f64::INFINITY, f64::min);
-            let mut z = seg.iter().map(|q| q.p).fold(f64::NEG_INFINITY, f64::max);
-            for f in &b.folds {
-                if f.after + 1 == start || f.after == k {
-                    a = a.min(f.point.p);
-                    z = z.max(f.point.p);
-                }
-            }
-            events.push((a.max(lo), 1));
-            events.push((z.min(hi), -1));
-            k += 1;
-        }
-    }
-    events.sort_by(|x, y| x.0.total_cmp(&y.0).then(y.1.cmp(&x.1)));
-    let (mut depth, mut open, mut out) = (0, 0.0, Vec::new());
-    for (x, d) in events {
-        let before = depth;
-        depth += d;
-        if before < 2 && depth >= 2 {
-            open = x;
-        } else if before >= 2 && depth < 2 && x > open {
-            out.push((open, x));
-        }
-    }
-    out
 }
 
 #[cfg(test)]

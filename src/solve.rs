@@ -250,20 +250,7 @@ pub fn unstable_modes(model: &Model, t: &[f64], ws: &mut Workspace) -> usize {
 /// Dense fallback: eigenvalues of C⁻¹ J by faer, count Re λ > 0.
 pub fn dense_unstable_modes(j: &Tridiagonal, cap: &[f64]) -> usize {
     let n = j.len();
-    let m = faer::Mat::<f64>::from_fn(n, n, |r, c| {
-        let mut v = 0.0;
-        if r == c {
-            v += j.diag[r];
-        } else if c + 1 == r {
-            v += j.lower[r];
-        } else if r + 1 == c {
-            v += j.upper[r];
-        }
-        if let Some((u, w)) = &j.rank_one {
-            v += u[r] * w[c];
-        }
-        v / cap[r]
-    });
+    let m = faer::Mat::<f64>::from_fn(n, n, |r, c| j.entry(r, c) / cap[r]);
     match m.eigenvalues() {
         Ok(ev) => ev.iter().filter(|z| z.re > 0.0).count(),
         Err(_) => usize::MAX,

@@ -2,23 +2,7 @@
 //! (common practice, no source), for every law combination.
 mod common;
 
-use icefold::linalg::Tridiagonal;
 use icefold::model::{Model, Param};
-
-fn dense(j: &Tridiagonal, r: usize, c: usize) -> f64 {
-    let mut v = 0.0;
-    if r == c {
-        v += j.diag[r];
-    } else if c + 1 == r {
-        v += j.lower[r];
-    } else if r + 1 == c {
-        v += j.upper[r];
-    }
-    if let Some((u, w)) = &j.rank_one {
-        v += u[r] * w[c];
-    }
-    v
-}
 
 fn profiles(m: &Model) -> Vec<Vec<f64>> {
     (0..6)
@@ -70,7 +54,7 @@ fn jacobian_matches_central_differences() {
                 m.evaluate(&tm, &mut fm, None);
                 for r in 0..n {
                     let fd = (fp[r] - fm[r]) / (2.0 * h);
-                    let an = dense(&j, r, c);
+                    let an = j.entry(r, c);
                     assert!(
                         (fd - an).abs() < 1e-5 * (1.0 + an.abs()),
                         "{sets:?} J[{r}][{c}]: analytic {an} fd {fd}"
