@@ -1,24 +1,6 @@
 //! End-to-end command-line tests in a temporary directory.
-use std::path::PathBuf;
-use std::process::Command;
-
-fn icefold(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_icefold"))
-        .args(args)
-        .output()
-        .expect("run icefold");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn temp_dir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("icefold-test-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    d
-}
+mod common;
+use common::{icefold, temp_dir};
 
 #[test]
 fn solve_writes_every_output() {

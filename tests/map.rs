@@ -1,29 +1,12 @@
 //! Regime maps: determinism across threads and shards, slices equal to
 //! independent traces, the expected regimes, and bad input.
+mod common;
+use common::{icefold, temp_dir};
 use icefold::branches::{TraceOptions, trace_all};
 use icefold::model::Param;
 use icefold::scenario::Scenario;
 use icefold::sweep::{MapSpec, compute_slice};
-use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn icefold(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_icefold"))
-        .args(args)
-        .output()
-        .expect("run icefold");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn temp_dir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("icefold-map-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    d
-}
+use std::path::Path;
 
 const SCEN: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/kdwarf-ocean.toml");
 const FILES: [&str; 7] = [

@@ -1,6 +1,8 @@
 //! Seasonal model checks: time stepping, periodic climates by shooting,
 //! Floquet stability, continuation and the command-line pieces, each
 //! against something outside the project (source beside each check).
+mod common;
+use common::temp_dir;
 use icefold::branches::{TraceOptions, trace_all};
 use icefold::cli::{Args, CliError};
 use icefold::cli_seasons::{cmd_periodic, cmd_run};
@@ -337,12 +339,6 @@ fn small_ice_cap_instability_annual_versus_seasonal() {
         assert!(found.failures.is_empty());
         assert_eq!(found.climates.len(), 1, "at flux {f}");
     }
-}
-
-fn temp_dir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("icefold-seasons-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    d
 }
 
 fn args(cmd: &str, dir: &Path, sets: &[&str]) -> Args {

@@ -4,6 +4,8 @@ pub mod reference;
 
 use icefold::model::Model;
 use icefold::scenario::Scenario;
+use std::path::PathBuf;
+use std::process::Command;
 
 /// The classic present-day Legendre scenario with overrides.
 pub fn classic(sets: &[&str]) -> Model {
@@ -32,4 +34,25 @@ pub fn bisect(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64, tol: f64) -> f64 {
         }
     }
     0.5 * (a + b)
+}
+
+/// Runs the icefold binary; returns (exit code, stdout, stderr).
+pub fn icefold(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_icefold"))
+        .args(args)
+        .output()
+        .expect("run icefold");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+/// A fresh (absent) directory under the system temp dir, unique per test
+/// binary and name.
+pub fn temp_dir(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("icefold-test-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    d
 }
