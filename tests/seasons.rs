@@ -12,7 +12,7 @@ use icefold::model::Param;
 use icefold::scenario::Scenario;
 use icefold::seasons::*;
 use icefold::solve::{NewtonOptions, Workspace, newton};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 fn seasonal(sets: &[&str]) -> SeasonalModel {
     let sets: Vec<String> = sets.iter().map(|s| s.to_string()).collect();
