@@ -17,6 +17,10 @@ pub struct AnnualProblem {
     jac: Tridiagonal,
     scratch: Vec<f64>,
     ws: Workspace,
+    /// (u, p) at which `jac` was last evaluated, for reuse by
+    /// `unstable_modes`.
+    jac_u: Vec<f64>,
+    jac_p: f64,
 }
 
 impl AnnualProblem {
@@ -25,12 +29,15 @@ impl AnnualProblem {
         let jac = model.new_jacobian();
         let ws = Workspace::new(&model);
         let scratch = vec![0.0; model.len()];
+        let n = model.len();
         AnnualProblem {
             model,
             param,
             jac,
             scratch,
             ws,
+            jac_u: vec![f64::NAN; n],
+            jac_p: f64::NAN,
         }
     }
 }
@@ -49,6 +56,8 @@ impl Problem for AnnualProblem {
     }
     fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular> {
         self.model.evaluate(u, f, Some(&mut self.jac));
+        self.jac_u.copy_from_slice(u);
+        self.jac_p = self.model.param(self.param);
         self.jac.factor()
     }
     fn solve(&self, b: &mut [f64]) {
@@ -62,6 +71,15 @@ impl Problem for AnnualProblem {
             .d_residual_d_param(self.param, u, out, &mut self.scratch);
     }
     fn unstable_modes(&mut self, u: &[f64]) -> usize {
+        // the Jacobian of the last factorisation, if it was taken here
+        if self.jac_p == self.model.param(self.param)
+            && self.jac_u == u
+            && let Some(c) = self
+                .jac
+                .count_positive_eigenvalues(&self.model.planet.heat_capacity)
+        {
+            return c;
+        }
         unstable_modes(&self.model, u, &mut self.ws)
     }
     fn label(&mut self, u: &[f64]) -> u64 {
@@ -214,8 +232,13 @@ pub fn trace_all(
     // 1. seeds: equilibria from warm and cold starts at several values
     let mut seeds: Vec<(f64, Vec<f64>)> = Vec::new();
     let k = opts.seed_values.max(2);
+    // seeds are a heuristic: a start that does not converge quickly is
+    // dropped rather than nursed
     let nopts = NewtonOptions {
         tolerance: opts.tolerance,
+        max_iterations: 40,
+        max_backtracks: 8,
+        stall_window: 6,
         ..NewtonOptions::default()
     };
     for j in 0..k {

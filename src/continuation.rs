@@ -167,6 +167,11 @@ pub struct Branch {
 
 /// Workspace: vectors allocated once per branch.
 struct Ws {
+    /// (u, p) of the factors the problem holds, so a tangent right after a
+    /// converged correction reuses them.
+    last_u: Vec<f64>,
+    last_p: f64,
+    last_valid: bool,
     f: Vec<f64>,
     fp: Vec<f64>,
     a: Vec<f64>,
@@ -178,6 +183,9 @@ struct Ws {
 impl Ws {
     fn new(n: usize) -> Ws {
         Ws {
+            last_u: vec![0.0; n],
+            last_p: f64::NAN,
+            last_valid: false,
             f: vec![0.0; n],
             fp: vec![0.0; n],
             a: vec![0.0; n],
@@ -264,6 +272,20 @@ impl<'a, P: Problem> Tracer<'a, P> {
         Ok(y_total)
     }
 
+    /// Factors J at (u, p) unless the problem already holds those factors.
+    fn factor_at(&mut self, u: &[f64], p: f64) -> Result<(), Singular> {
+        if self.ws.last_valid && self.ws.last_p == p && self.ws.last_u == u {
+            return Ok(());
+        }
+        self.problem.set_param(p);
+        self.ws.last_valid = false;
+        self.problem.factor(u, &mut self.ws.f)?;
+        self.ws.last_u.copy_from_slice(u);
+        self.ws.last_p = p;
+        self.ws.last_valid = true;
+        Ok(())
+    }
+
     /// Unit tangent at a solution (u, p), oriented along (tu0, tp0).
     fn tangent(
         &mut self,
@@ -272,8 +294,8 @@ impl<'a, P: Problem> Tracer<'a, P> {
         tu0: &[f64],
         tp0: f64,
     ) -> Result<(Vec<f64>, f64), Singular> {
+        self.factor_at(u, p)?;
         self.problem.set_param(p);
-        self.problem.factor(u, &mut self.ws.f)?;
         self.problem.d_param(u, &mut self.ws.fp);
         self.ws.r.fill(0.0);
         let y = self.bordered(tu0, tp0, 1.0)?;
@@ -301,8 +323,8 @@ impl<'a, P: Problem> Tracer<'a, P> {
         let (u_pred, p_pred) = (u.to_vec(), *p);
         let mut res = f64::INFINITY;
         for it in 0..10 {
-            self.problem.set_param(*p);
-            if self.problem.factor(u, &mut self.ws.f).is_err() {
+            self.ws.last_valid = false;
+            if self.factor_at(u, *p).is_err() {
                 return Err(res);
             }
             res = max_abs(&self.ws.f);
@@ -355,6 +377,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
     fn newton_at(&mut self, u: &mut [f64], p: f64) -> Option<f64> {
         self.problem.set_param(p);
         for _ in 0..30 {
+            self.ws.last_valid = false;
             if self.problem.factor(u, &mut self.ws.f).is_err() {
                 return None;
             }

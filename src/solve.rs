@@ -39,6 +39,12 @@ pub struct NewtonOptions {
     pub max_iterations: usize,
     /// Largest temperature change per iteration, K (damping).
     pub max_step: f64,
+    /// Step halvings tried by the line search before the step is taken
+    /// anyway.
+    pub max_backtracks: usize,
+    /// Give up when the best residual has not halved for this many
+    /// iterations.
+    pub stall_window: usize,
 }
 
 impl Default for NewtonOptions {
@@ -47,6 +53,8 @@ impl Default for NewtonOptions {
             tolerance: 1e-10,
             max_iterations: 200,
             max_step: 40.0,
+            max_backtracks: 30,
+            stall_window: 20,
         }
     }
 }
@@ -104,13 +112,13 @@ pub fn newton(
     let n = model.len();
     model.evaluate(t, &mut ws.f, Some(&mut ws.jac));
     let mut res = max_abs(&ws.f);
-    // stall detection: the best residual must halve every 20 iterations
+    // stall detection: the best residual must halve every `stall_window` iterations
     let (mut best, mut best_iter) = (res, 0usize);
     for iter in 0..opts.max_iterations {
         if res < 0.5 * best {
             best = res;
             best_iter = iter;
-        } else if iter >= best_iter + 20 && res >= opts.tolerance {
+        } else if iter >= best_iter + opts.stall_window && res >= opts.tolerance {
             return Err(SolveError::NewtonStalled {
                 iterations: iter,
                 residual: res,
@@ -147,7 +155,7 @@ pub fn newton(
         };
         let f0 = norm2(&ws.f);
         let mut accepted = false;
-        for _ in 0..30 {
+        for _ in 0..opts.max_backtracks {
             for i in 0..n {
                 ws.trial[i] = t[i] + lambda * ws.dx[i];
             }
