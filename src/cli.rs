@@ -332,22 +332,13 @@ fn cmd_solve(args: &Args) -> Result<String, CliError> {
         starts.push(read_start(p, &model)?);
     }
     let search = find_equilibria(&model, &starts, &newton_options(&sc));
-    for (label, err) in &search.failures {
-        if !args.quiet {
-            eprintln!("icefold: start `{label}` did not reach an equilibrium: {err}");
-        }
-    }
-    if search.equilibria.is_empty() {
-        let why: Vec<String> = search
-            .failures
-            .iter()
-            .map(|(l, e)| format!("{l}: {e}"))
-            .collect();
-        return Err(CliError::Failed(format!(
-            "no equilibrium found; nothing written ({})",
-            why.join("; ")
-        )));
-    }
+    report_starts(
+        args.quiet,
+        &search.failures,
+        search.equilibria.len(),
+        "an",
+        "equilibrium",
+    )?;
     let dir = out_dir(args);
     let mut out = OutputSet::new();
     let lat = model.grid.latitudes_deg();
@@ -449,6 +440,31 @@ fn cmd_solve(args: &Args) -> Result<String, CliError> {
     }
     s += &written_list(&written);
     Ok(s)
+}
+
+/// Reports the starts that failed (on stderr unless quiet) and fails the
+/// command, writing nothing, when none reached a result. `noun` names the
+/// result ("equilibrium"), `article` its article ("an").
+pub fn report_starts<E: std::fmt::Display>(
+    quiet: bool,
+    failures: &[(String, E)],
+    found: usize,
+    article: &str,
+    noun: &str,
+) -> Result<(), CliError> {
+    if !quiet {
+        for (label, err) in failures {
+            eprintln!("icefold: start `{label}` did not reach {article} {noun}: {err}");
+        }
+    }
+    if found == 0 {
+        let why: Vec<String> = failures.iter().map(|(l, e)| format!("{l}: {e}")).collect();
+        return Err(CliError::Failed(format!(
+            "no {noun} found; nothing written ({})",
+            why.join("; ")
+        )));
+    }
+    Ok(())
 }
 
 /// "wrote: a, b, c" line.

@@ -338,22 +338,13 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         starts.push(read_start(p, sm.model())?);
     }
     let search = find_periodic(&mut sm, &starts, &ShootingOptions::default());
-    for (label, err) in &search.failures {
-        if !args.quiet {
-            eprintln!("icefold: start `{label}` did not reach a periodic climate: {err}");
-        }
-    }
-    if search.climates.is_empty() {
-        let why: Vec<String> = search
-            .failures
-            .iter()
-            .map(|(l, e)| format!("{l}: {e}"))
-            .collect();
-        return Err(CliError::Failed(format!(
-            "no periodic climate found; nothing written ({})",
-            why.join("; ")
-        )));
-    }
+    crate::cli::report_starts(
+        args.quiet,
+        &search.failures,
+        search.climates.len(),
+        "a",
+        "periodic climate",
+    )?;
     let mut cycles = Vec::new();
     for p in &search.climates {
         cycles.push(cycle(&mut sm, &p.start).map_err(seasonal_error)?);

@@ -448,6 +448,24 @@ struct LegendItem {
     sample: Sample,
 }
 
+/// Legend entries for line styles: "stable" (solid) and, when any curve
+/// has unstable parts, "unstable" (dashed).
+fn push_stability_legend(items: &mut Vec<LegendItem>, any_unstable: bool) {
+    for (label, dashed) in [("stable", false), ("unstable", true)] {
+        if dashed && !any_unstable {
+            continue;
+        }
+        items.push(item(
+            label,
+            Sample::Line {
+                colour: BLACK,
+                dashed,
+                glyph: None,
+            },
+        ));
+    }
+}
+
 fn item(label: impl Into<String>, sample: Sample) -> LegendItem {
     LegendItem {
         label: label.into(),
@@ -910,24 +928,7 @@ impl Paint for ProfilePaint<'_> {
         if self.curves.iter().any(|c| !c.src.ice_edges_deg.is_empty()) {
             items.push(item("ice edge", Sample::Glyph(Glyph::Tick(BLACK))));
         }
-        items.push(item(
-            "stable",
-            Sample::Line {
-                colour: BLACK,
-                dashed: false,
-                glyph: None,
-            },
-        ));
-        if any_unstable {
-            items.push(item(
-                "unstable",
-                Sample::Line {
-                    colour: BLACK,
-                    dashed: true,
-                    glyph: None,
-                },
-            ));
-        }
+        push_stability_legend(&mut items, any_unstable);
         draw_legend(&legend, "States", &items, 14)
     }
 }
@@ -1263,24 +1264,7 @@ impl Paint for HystPaint<'_> {
             draw_glyph(&iscreen, Glyph::Fold, fi)?;
             draw_glyph(&gscreen, Glyph::Fold, fg)?;
         }
-        items.push(item(
-            "stable",
-            Sample::Line {
-                colour: BLACK,
-                dashed: false,
-                glyph: None,
-            },
-        ));
-        if any_unstable {
-            items.push(item(
-                "unstable",
-                Sample::Line {
-                    colour: BLACK,
-                    dashed: true,
-                    glyph: None,
-                },
-            ));
-        }
+        push_stability_legend(&mut items, any_unstable);
         if !self.folds.is_empty() {
             items.push(item("fold", Sample::Glyph(Glyph::Fold)));
         }
