@@ -2,10 +2,10 @@
 //! 91 obliquity slices at 90 bands over the default flux range: wall time on
 //! all threads and on one, and a brute-force grid of spin-ups (91 x 200
 //! cells, each time-stepped from a warm and a cold start) in the same run.
+use icefold::analysis::sweep::{MapSpec, Slice, compute_slice};
+use icefold::io::scenario::Scenario;
 use icefold::model::Param;
-use icefold::scenario::Scenario;
-use icefold::solve::{Workspace, spin_up};
-use icefold::sweep::{MapSpec, Slice, compute_slice};
+use icefold::numerics::newton::{Workspace, spin_up};
 use rayon::prelude::*;
 use std::time::Instant;
 

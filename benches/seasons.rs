@@ -2,16 +2,20 @@
 //! `cargo bench --bench seasons`. Prints the time to the periodic climate
 //! by shooting against spin-up to 1e-6 K year over year, and the time of a
 //! seasonal trace over the default flux range.
-use icefold::model::Param;
-use icefold::scenario::Scenario;
-use icefold::seasons::{
-    SeasonalModel, SeasonalTraceOptions, ShootingOptions, shoot, spin_up, trace_seasonal,
+use icefold::analysis::periodic::{
+    SeasonalTraceOptions, ShootingOptions, shoot, spin_up, trace_seasonal,
 };
-use icefold::solve::{NewtonOptions, Workspace, newton};
+use icefold::io::scenario::Scenario;
+use icefold::model::Param;
+use icefold::model::seasonal::SeasonalModel;
+use icefold::numerics::newton::{NewtonOptions, Workspace, newton};
 use std::time::Instant;
 
 fn seasonal(sets: &[String]) -> SeasonalModel {
-    SeasonalModel::from_scenario(&Scenario::load(None, sets).unwrap()).unwrap()
+    Scenario::load(None, sets)
+        .unwrap()
+        .seasonal_model()
+        .unwrap()
 }
 
 fn compare(label: &str, sets: &[String]) {

@@ -2,10 +2,10 @@
 //! Prints steady-solve times against bands, Newton versus implicit time
 //! stepping to the same equilibrium, trace times against bands, and trace
 //! versus the flux ramp a researcher would otherwise write.
-use icefold::branches::{TraceOptions, trace_all};
+use icefold::analysis::branches::{TraceOptions, trace_all};
+use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
-use icefold::scenario::Scenario;
-use icefold::solve::{NewtonOptions, Workspace, implicit_step, newton};
+use icefold::numerics::newton::{NewtonOptions, Workspace, implicit_step, newton};
 use std::time::Instant;
 
 fn model(bands: usize) -> Model {

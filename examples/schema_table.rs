@@ -1,3 +1,3 @@
 fn main() {
-    print!("{}", icefold::scenario::Scenario::schema_markdown());
+    print!("{}", icefold::io::scenario::Scenario::schema_markdown());
 }

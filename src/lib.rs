@@ -12,16 +12,23 @@
 //! (Myhre et al. 1998), and diffusive (North 1975) or relaxation (Budyko
 //! 1969) heat transport.
 //!
-//! Architecture: physics laws ([`insolation`], [`albedo`], [`radiation`])
-//! are small and pure; [`model::Model`] assembles them into the residual
-//! F(T; p) and its tridiagonal Jacobian; [`solve`] and [`continuation`]
-//! know nothing about physics; [`branches`], [`sweep`], [`foldcurve`] and
-//! [`seasons`] build the researcher's questions on top; [`scenario`] reads
-//! TOML; [`export`], [`netcdf`] and [`plot`] only read results.
+//! Architecture, in layers whose dependencies point one way (down the list):
+//!
+//! - [`numerics`]: quadrature, the band grid, tridiagonal solvers, Newton,
+//!   pseudo-arclength continuation; nothing here knows about physics.
+//! - [`physics`]: the published laws (orbit, insolation, albedo, radiation,
+//!   transport), small and pure.
+//! - [`model`]: the laws assembled into the annual-mean residual F(T; p) and
+//!   its tridiagonal Jacobian ([`Model`]), the seasonal model, diagnostics.
+//! - [`analysis`]: every branch and fold ([`trace_all`]), regime maps
+//!   ([`analysis::sweep`]), fold curves, periodic climates ([`find_periodic`]).
+//! - [`io`]: the scenario schema ([`Scenario`]), tables, NetCDF, figures;
+//!   output modules only read results.
+//! - [`cli`]: one file per command over a shared context.
 //!
 //! ```
-//! use icefold::climate::{State, find_equilibria, standard_starts};
-//! use icefold::scenario::Scenario;
+//! use icefold::Scenario;
+//! use icefold::model::climate::{State, find_equilibria, standard_starts};
 //!
 //! // The built-in present-day scenario is bistable: a climate with polar
 //! // caps and a snowball (Budyko 1969; North 1975).
@@ -35,26 +42,14 @@
 //! ```
 #![warn(missing_docs)]
 
-pub mod albedo;
-pub mod branches;
+pub mod analysis;
 pub mod cli;
-pub mod cli_map;
-pub mod cli_seasons;
-pub mod cli_trace;
-pub mod climate;
-pub mod continuation;
-pub mod export;
-pub mod foldcurve;
-pub mod grid;
-pub mod insolation;
-pub mod linalg;
+pub mod io;
 pub mod model;
-pub mod netcdf;
-pub mod orbit;
-pub mod plot;
-pub mod quad;
-pub mod radiation;
-pub mod scenario;
-pub mod seasons;
-pub mod solve;
-pub mod sweep;
+pub mod numerics;
+pub mod physics;
+
+pub use analysis::branches::{Hysteresis, TraceOptions, trace_all};
+pub use analysis::periodic::find_periodic;
+pub use io::scenario::{Scenario, ScenarioError};
+pub use model::Model;

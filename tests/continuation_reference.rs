@@ -5,9 +5,9 @@ mod common;
 use common::reference::{
     DiffusiveParams, RelaxationParams, budyko_fold, north_fold, north_small_cap_fold,
 };
-use icefold::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
-use icefold::climate::State;
+use icefold::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
 use icefold::model::Param;
+use icefold::model::climate::State;
 
 fn trace_classic(sets: &[&str], lo: f64, hi: f64) -> Hysteresis {
     let m = common::classic(sets);

@@ -6,9 +6,9 @@
 //! Run with `cargo test --release --test insolation_external -- --nocapture`
 //! to see the measured deviations.
 
-use icefold::insolation::{Insolation, InsolationLaw, daily_mean};
-use icefold::orbit::Orbit;
-use icefold::quad::{gauss_legendre, p2};
+use icefold::numerics::quad::{gauss_legendre, p2};
+use icefold::physics::insolation::{Insolation, InsolationLaw, daily_mean};
+use icefold::physics::orbit::Orbit;
 use solar_positioning::time::JulianDate;
 use solar_positioning::{Location, SolarPositions};
 use std::f64::consts::PI;

@@ -2,10 +2,10 @@
 //! independent traces, the expected regimes, and bad input.
 mod common;
 use common::{icefold, temp_dir};
-use icefold::branches::{TraceOptions, trace_all};
+use icefold::analysis::branches::{TraceOptions, trace_all};
+use icefold::analysis::sweep::{MapSpec, compute_slice};
+use icefold::io::scenario::Scenario;
 use icefold::model::Param;
-use icefold::scenario::Scenario;
-use icefold::sweep::{MapSpec, compute_slice};
 use std::path::Path;
 
 const SCEN: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/kdwarf-ocean.toml");
@@ -187,7 +187,7 @@ fn bad_map_input_exits_2_and_writes_nothing() {
 /// smooth (away from the kinks of the sub-grid edge).
 #[test]
 fn fold_curve_passes_through_slice_folds() {
-    use icefold::foldcurve::trace_fold_curve;
+    use icefold::analysis::foldcurve::trace_fold_curve;
     let mut m = Scenario::load(None, &[]).unwrap().model();
     m.set_param(Param::Obliquity, 18.0);
     let (lo, hi) = (1070.0, 1540.0);

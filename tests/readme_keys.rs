@@ -3,7 +3,7 @@
 fn readme_lists_every_scenario_key() {
     let readme =
         std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md")).unwrap();
-    for spec in icefold::scenario::SCHEMA {
+    for spec in icefold::io::scenario::SCHEMA {
         assert!(
             readme.contains(&format!("`{}`", spec.key)),
             "README lacks `{}`",

@@ -3,20 +3,24 @@
 //! against something outside the project (source beside each check).
 mod common;
 use common::temp_dir;
-use icefold::branches::{TraceOptions, trace_all};
+use icefold::analysis::branches::{TraceOptions, trace_all};
+use icefold::analysis::periodic::*;
+use icefold::cli::seasons::{cmd_periodic, cmd_run};
 use icefold::cli::{Args, CliError};
-use icefold::cli_seasons::{cmd_periodic, cmd_run};
-use icefold::climate::standard_starts;
-use icefold::insolation::Insolation;
+use icefold::io::scenario::Scenario;
 use icefold::model::Param;
-use icefold::scenario::Scenario;
-use icefold::seasons::*;
-use icefold::solve::{NewtonOptions, Workspace, newton};
+use icefold::model::climate::standard_starts;
+use icefold::model::seasonal::*;
+use icefold::numerics::newton::{NewtonOptions, Workspace, newton};
+use icefold::physics::insolation::Insolation;
 use std::path::Path;
 
 fn seasonal(sets: &[&str]) -> SeasonalModel {
     let sets: Vec<String> = sets.iter().map(|s| s.to_string()).collect();
-    SeasonalModel::from_scenario(&Scenario::load(None, &sets).unwrap()).unwrap()
+    Scenario::load(None, &sets)
+        .unwrap()
+        .seasonal_model()
+        .unwrap()
 }
 
 fn max_diff(a: &[f64], b: &[f64]) -> f64 {
@@ -226,7 +230,7 @@ fn annual_map_jacobian_matches_finite_differences() {
     }
 }
 
-fn cap_folds(h: &icefold::branches::Hysteresis) -> Vec<(f64, f64)> {
+fn cap_folds(h: &icefold::analysis::branches::Hysteresis) -> Vec<(f64, f64)> {
     h.branches
         .iter()
         .flat_map(|b| b.folds.iter())
@@ -326,11 +330,11 @@ fn small_ice_cap_instability_annual_versus_seasonal() {
             capped[i] = 25.0 - 40.0 * x * x;
         }
         let starts = vec![
-            icefold::climate::Start {
+            icefold::model::climate::Start {
                 label: "warm".into(),
                 temperature: vec![30.0; n],
             },
-            icefold::climate::Start {
+            icefold::model::climate::Start {
                 label: "cap".into(),
                 temperature: capped,
             },

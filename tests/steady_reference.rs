@@ -6,11 +6,11 @@ use common::reference::{
     north_q_of_xs, north_small_cap_fold,
 };
 use common::{bisect, classic};
-use icefold::climate::{
+use icefold::model::Model;
+use icefold::model::climate::{
     Start, State, diagnose, equilibrium_from, find_equilibria, standard_starts,
 };
-use icefold::model::Model;
-use icefold::solve::{NewtonOptions, Workspace, newton};
+use icefold::numerics::newton::{NewtonOptions, Workspace, newton};
 
 fn solve_from(model: &Model, t0: f64) -> Vec<f64> {
     let mut t = vec![t0; model.len()];

@@ -2,8 +2,8 @@
 #![allow(dead_code)]
 pub mod reference;
 
+use icefold::io::scenario::Scenario;
 use icefold::model::Model;
-use icefold::scenario::Scenario;
 use std::path::PathBuf;
 use std::process::Command;
 

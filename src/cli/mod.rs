@@ -1,13 +1,17 @@
 //! The command line: parse, load the scenario, call the library, write results.
 //! Exit codes: 0 success, 1 the computation failed, 2 bad input.
 
-use crate::climate::{Equilibrium, Start, find_equilibria, standard_starts};
-use crate::export::{Cell, ExportError, OutputSet, Table};
+use crate::io::export::{Cell, ExportError, OutputSet, Table};
+use crate::io::plot;
+use crate::io::scenario::{Scenario, ScenarioError};
 use crate::model::Model;
-use crate::plot;
-use crate::scenario::{Scenario, ScenarioError};
-use crate::solve::NewtonOptions;
+use crate::model::climate::{Equilibrium, Start, find_equilibria, standard_starts};
+use crate::numerics::newton::NewtonOptions;
 use std::path::{Path, PathBuf};
+
+pub mod map;
+pub mod seasons;
+pub mod trace;
 
 /// Tool version, written into every output.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");
@@ -173,8 +177,8 @@ pub fn run(args: &Args) -> Result<String, CliError> {
         }
         "solve" => cmd_solve(args),
         "sun" => cmd_sun(args),
-        "trace" => crate::cli_trace::cmd_trace(args),
-        "map" => crate::cli_map::cmd_map(args),
+        "trace" => crate::cli::trace::cmd_trace(args),
+        "map" => crate::cli::map::cmd_map(args),
         "run" => {
             let s = args.years.as_deref().ok_or_else(|| {
                 CliError::Usage("run needs --years N (see icefold --help)".into())
@@ -182,10 +186,10 @@ pub fn run(args: &Args) -> Result<String, CliError> {
             let years: usize = s.trim().parse().map_err(|_| {
                 CliError::Usage(format!("--years `{s}` is not a whole number of years"))
             })?;
-            crate::cli_seasons::cmd_run(args, years, args.from.as_deref())
+            crate::cli::seasons::cmd_run(args, years, args.from.as_deref())
         }
-        "periodic" => crate::cli_seasons::cmd_periodic(args),
-        "merge" => crate::cli_map::cmd_merge(args),
+        "periodic" => crate::cli::seasons::cmd_periodic(args),
+        "merge" => crate::cli::map::cmd_merge(args),
         "figures" => cmd_figures(args),
         other => Err(CliError::Usage(format!(
             "unknown command `{other}`; commands: trace, map, merge, solve, periodic, run, sun, check, figures (see icefold --help)"
@@ -527,7 +531,7 @@ fn cmd_sun(args: &Args) -> Result<String, CliError> {
         ins.annual_mean(0.0),
         ins.annual_mean(1.0)
     );
-    if let crate::insolation::InsolationLaw::Legendre { .. } = model.planet.insolation {
+    if let crate::physics::insolation::InsolationLaw::Legendre { .. } = model.planet.insolation {
         s += "note: insolation.kind = \"legendre\" has no seasons; the daily values equal the annual mean\n";
     }
     s += &written_list(&written);

@@ -21,7 +21,7 @@
 //! fold is an equilibrium with a vanishing parameter component of the tangent,
 //! i.e. a zero of the extended system {F = 0, J v = 0} with v = t_u.
 
-use crate::linalg::Singular;
+use crate::numerics::linalg::Singular;
 
 /// What continuation needs from a problem: residual, an O(n) factor-solve
 /// of its Jacobian, the parameter derivative, and stability.

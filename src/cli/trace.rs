@@ -1,9 +1,9 @@
 //! `icefold trace`: every branch of equilibria in one parameter.
-use crate::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
 use crate::cli::{Args, CliError, load, out_dir, provenance, written_list};
-use crate::export::{Cell, OutputSet, Table};
+use crate::io::export::{Cell, OutputSet, Table};
+use crate::io::plot::{self, BranchCurve, FoldMark};
 use crate::model::Param;
-use crate::plot::{self, BranchCurve, FoldMark};
 use std::io::IsTerminal;
 
 /// Parses and checks `--vary`, `--from`, `--to` against the model.
@@ -81,12 +81,21 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
     let h = if sc.flag("seasons.enabled") {
         // periodic climates through the annual map (same outputs)
-        let sm = crate::seasons::SeasonalModel::from_scenario(&sc)
+        let sm = sc
+            .seasonal_model()
             .map_err(|e| CliError::Usage(format!("seasonal model: {e}")))?;
-        let sopts = crate::seasons::SeasonalTraceOptions::default();
-        let mut h =
-            crate::seasons::trace_seasonal(&sm, param, from, to, warm, cold, &sopts, &mut progress);
-        crate::branches::resolve_jumps(&mut h.branches, (to - from).abs());
+        let sopts = crate::analysis::periodic::SeasonalTraceOptions::default();
+        let mut h = crate::analysis::periodic::trace_seasonal(
+            &sm,
+            param,
+            from,
+            to,
+            warm,
+            cold,
+            &sopts,
+            &mut progress,
+        );
+        crate::analysis::branches::resolve_jumps(&mut h.branches, (to - from).abs());
         h
     } else {
         trace_all(&model, param, from, to, warm, cold, &opts, &mut progress)
@@ -96,7 +105,11 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     }
     for b in &h.branches {
         for e in &b.ends {
-            if matches!(e, crate::continuation::EndReason::StepTooSmall { .. }) && !quiet {
+            if matches!(
+                e,
+                crate::numerics::continuation::EndReason::StepTooSmall { .. }
+            ) && !quiet
+            {
                 eprintln!("trace: branch {} ended early: {e}", b.id);
             }
         }
@@ -271,7 +284,7 @@ fn folds_json(h: &Hysteresis) -> serde_json::Value {
 fn hysteresis_figure(
     h: &Hysteresis,
     name: &str,
-) -> Result<plot::Figure, crate::export::ExportError> {
+) -> Result<plot::Figure, crate::io::export::ExportError> {
     let branches: Vec<BranchCurve> = h
         .branches
         .iter()

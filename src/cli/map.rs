@@ -1,13 +1,13 @@
 //! `icefold map` and `icefold merge`: regime maps over two parameters.
-use crate::cli::{Args, CliError, VERSION, load, written_list};
-use crate::cli_trace::parse_range;
-use crate::export::{Cell, OutputSet, Table};
-use crate::model::Param;
-use crate::netcdf::NcFile;
-use crate::plot;
-use crate::sweep::{
+use crate::analysis::sweep::{
     MapSpec, STATES, Slice, compute_slice, join_boundaries, regime_label, state_bit,
 };
+use crate::cli::trace::parse_range;
+use crate::cli::{Args, CliError, VERSION, load, written_list};
+use crate::io::export::{Cell, OutputSet, Table};
+use crate::io::netcdf::NcFile;
+use crate::io::plot;
+use crate::model::Param;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 use std::io::IsTerminal;
@@ -312,8 +312,9 @@ fn render(
             scenario_num(scenario, "solver.cold_start", -60.0),
         );
         let tol = scenario_num(scenario, "solver.tolerance", 1e-10);
-        let extra =
-            crate::sweep::continue_boundaries(model, spec, ap, vp, &bounds, warm, cold, tol);
+        let extra = crate::analysis::sweep::continue_boundaries(
+            model, spec, ap, vp, &bounds, warm, cold, tol,
+        );
         bounds.extend(extra);
     }
     let mut bt = Table::new(&["curve", "method", "transition", ak, vk]);
@@ -393,7 +394,7 @@ fn render(
     let bistable: Vec<bool> = count.iter().map(|c| *c >= 2).collect();
     let lines: Vec<(String, Vec<(f64, f64)>)> = bounds
         .iter()
-        .filter(|b| b.points.len() >= 2 && crate::sweep::is_transition(&b.transition))
+        .filter(|b| b.points.len() >= 2 && crate::analysis::sweep::is_transition(&b.transition))
         .map(|b| (b.transition.clone(), b.points.clone()))
         .collect();
     let fig = plot::regime_figure(
@@ -553,7 +554,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         .clone()
         .unwrap_or_else(|| PathBuf::from("out").join("map"));
     let mut out = OutputSet::new();
-    let model = crate::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
+    let model = crate::io::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
         .map_err(|e| usage(format!("shard scenario: {e}")))?
         .model();
     render(

@@ -12,16 +12,16 @@
 //!
 //! so that g(u, p, a) = 0 exactly where J is singular. The curve
 //! H(u, p; a) = [F(u, p, a); g(u, p, a)] = 0 is traced by the same
-//! pseudo-arclength [`crate::continuation::Tracer`] with the across
+//! pseudo-arclength [`crate::numerics::continuation::Tracer`] with the across
 //! parameter a free. ∂g/∂z = -wᵀ (∂J/∂z) v with w from the transposed
 //! system; ∂J/∂z by central differences. The bordered and extended systems
 //! are solved densely (faer LU): O(n³) per Newton step, fine for the tens to
 //! hundreds of bands a map uses. After every accepted point the bordering
 //! vectors are reset to the current null vectors (b = w, c = v).
 
-use crate::continuation::{Problem, Settings, Tracer};
-use crate::linalg::{Singular, Tridiagonal};
 use crate::model::{Model, Param};
+use crate::numerics::continuation::{Problem, Settings, Tracer};
+use crate::numerics::linalg::{Singular, Tridiagonal};
 use faer::prelude::Solve;
 
 /// The extended fold system as a continuation problem in the across

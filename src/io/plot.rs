@@ -25,7 +25,7 @@ use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 use plotters::style::{FontStyle, register_font};
 
-use crate::export::ExportError;
+use crate::io::export::ExportError;
 
 /// Width of every figure, in pixels.
 pub const FIGURE_WIDTH: u32 = 1000;
@@ -192,7 +192,7 @@ fn tick_fmt(v: &f64) -> String {
 // validation helpers
 
 fn check_finite(what: &str, v: &[f64]) -> Result<(), ExportError> {
-    crate::export::ensure_finite(what, v)
+    crate::io::export::ensure_finite(what, v)
 }
 
 fn check_nonempty<T>(what: &str, v: &[T]) -> Result<(), ExportError> {

@@ -2,8 +2,8 @@
 //! in parallel, reduced to compact slices that can be computed in shards
 //! and merged, then rendered the same way whatever the threads or shards.
 
-use crate::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
-use crate::climate::State;
+use crate::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::model::climate::State;
 use crate::model::{Model, Param};
 use serde::{Deserialize, Serialize};
 
@@ -184,7 +184,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
             });
         }
         for e in &b.ends {
-            if let crate::continuation::EndReason::StepTooSmall { .. } = e {
+            if let crate::numerics::continuation::EndReason::StepTooSmall { .. } = e {
                 notes.push(format!("branch {} ended early: {e}", b.id));
             }
         }
@@ -330,7 +330,7 @@ pub fn join_boundaries(slices: &[Slice]) -> Vec<Boundary> {
 }
 
 /// Continues, in two parameters, the fold at the start of every slice-joined
-/// transition boundary (see [`crate::foldcurve`]), skipping boundaries that
+/// transition boundary (see [`crate::analysis::foldcurve`]), skipping boundaries that
 /// an earlier continued curve already passes through. Returns curves with
 /// method "fold-continuation".
 #[allow(clippy::too_many_arguments)]
@@ -391,7 +391,7 @@ pub fn continue_boundaries(
         else {
             continue;
         };
-        let pts = crate::foldcurve::trace_fold_curve(
+        let pts = crate::analysis::foldcurve::trace_fold_curve(
             &m,
             vary,
             across,

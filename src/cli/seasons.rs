@@ -9,17 +9,17 @@
 //! followed by `latitude_deg,sin_latitude,temperature_c` rows; `--from FILE`
 //! refuses a file written for another scenario name or grid (exit 2).
 
-use crate::cli::{Args, CliError, load, out_dir, provenance, read_start, written_list};
-use crate::climate::{Start, diagnose, standard_starts};
-use crate::export::{Cell, OutputSet, Table};
-use crate::model::Model;
-use crate::netcdf::NcFile;
-use crate::plot;
-use crate::scenario::Scenario;
-use crate::seasons::{
-    Cycle, DAYS_PER_YEAR, Periodic, SeasonalError, SeasonalModel, ShootingOptions, cycle,
-    find_periodic, polar_ice_edges,
+use crate::analysis::periodic::{
+    Cycle, Periodic, ShootingOptions, cycle, find_periodic, polar_ice_edges,
 };
+use crate::cli::{Args, CliError, load, out_dir, provenance, read_start, written_list};
+use crate::io::export::{Cell, OutputSet, Table};
+use crate::io::netcdf::NcFile;
+use crate::io::plot;
+use crate::io::scenario::Scenario;
+use crate::model::Model;
+use crate::model::climate::{Start, diagnose, standard_starts};
+use crate::model::seasonal::{DAYS_PER_YEAR, SeasonalError, SeasonalModel};
 use std::path::Path;
 
 /// Most years `run` integrates in one call.
@@ -151,7 +151,7 @@ pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, Cl
 /// line), `summary.json` and `scenario.toml`. Default start: warm.
 pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, CliError> {
     let sc = load(args)?;
-    let mut sm = SeasonalModel::from_scenario(&sc).map_err(seasonal_error)?;
+    let mut sm = sc.seasonal_model().map_err(seasonal_error)?;
     if years == 0 || years > MAX_YEARS {
         return Err(CliError::Usage(format!(
             "--years {years}: allowed 1 to {MAX_YEARS}"
@@ -290,7 +290,7 @@ fn climate_json(
     k: usize,
     p: &Periodic,
     c: &Cycle,
-    d: &crate::climate::Diagnostics,
+    d: &crate::model::climate::Diagnostics,
 ) -> serde_json::Value {
     let ((dmin, fmin), (dmax, fmax)) = c.ice_extremes();
     let top: Vec<serde_json::Value> = p
@@ -331,7 +331,7 @@ fn climate_json(
 /// and `scenario.toml`.
 pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
-    let mut sm = SeasonalModel::from_scenario(&sc).map_err(seasonal_error)?;
+    let mut sm = sc.seasonal_model().map_err(seasonal_error)?;
     let n = sm.len();
     let mut starts = standard_starts(n, sc.num("solver.warm_start"), sc.num("solver.cold_start"));
     if let Some(p) = &args.start {

@@ -10,7 +10,7 @@
 //! [`ExportError::NonFinite`] naming the variable or attribute. Callers who
 //! need missing values must choose an explicit `_FillValue`.
 
-use crate::export::ExportError;
+use crate::io::export::ExportError;
 
 const NC_DIMENSION: u32 = 0x0A;
 const NC_VARIABLE: u32 = 0x0B;

@@ -7,7 +7,7 @@
 //! edge position (see [`crate::model`]). The smooth law blends with the ice
 //! weight f(T) = [1 - tanh((T - T_s)/w)] / 2.
 
-use crate::quad::p2;
+use crate::numerics::quad::p2;
 
 /// Which albedo law.
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -2,7 +2,9 @@
 //! ones, and describe each (global mean, ice, state, stability).
 
 use crate::model::Model;
-use crate::solve::{NewtonOptions, SolveError, Workspace, newton, spin_up, unstable_modes};
+use crate::numerics::newton::{
+    NewtonOptions, SolveError, Workspace, newton, spin_up, unstable_modes,
+};
 
 /// The kind of climate, from where the ice lies.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]

@@ -2,11 +2,11 @@
 //! seeds from several starts and parameter values, continuation of each
 //! distinct branch, folds with the jump they cause, and bistable windows.
 
-use crate::climate::{Diagnostics, Start, State, diagnose, standard_starts};
-use crate::continuation::{Branch, EndReason, Problem, Settings, Tracer};
-use crate::linalg::{Singular, Tridiagonal};
+use crate::model::climate::{Diagnostics, Start, State, diagnose, standard_starts};
 use crate::model::{Model, Param};
-use crate::solve::{NewtonOptions, Workspace, newton, unstable_modes};
+use crate::numerics::continuation::{Branch, EndReason, Problem, Settings, Tracer};
+use crate::numerics::linalg::{Singular, Tridiagonal};
+use crate::numerics::newton::{NewtonOptions, Workspace, newton, unstable_modes};
 
 /// The annual-mean model as a continuation problem in one parameter.
 pub struct AnnualProblem {

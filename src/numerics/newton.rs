@@ -1,8 +1,20 @@
 //! Steady states by Newton's method, transients by linearly implicit time
 //! stepping, stability by eigenvalue counts, and the diagnostics of a climate.
 
-use crate::linalg::Tridiagonal;
-use crate::model::Model;
+use crate::numerics::linalg::Tridiagonal;
+
+/// A steady problem C dT/dt = F(T) with a tridiagonal (plus rank-one)
+/// Jacobian: what Newton, implicit stepping and the stability count need.
+pub trait Steady {
+    /// Number of unknowns.
+    fn len(&self) -> usize;
+    /// F(T) into `f`, and ∂F/∂T into `jac` when given. Allocates nothing.
+    fn evaluate(&self, t: &[f64], f: &mut [f64], jac: Option<&mut Tridiagonal>);
+    /// A Jacobian of the right shape.
+    fn new_jacobian(&self) -> Tridiagonal;
+    /// Heat capacity C per unknown (time derivatives, stability).
+    fn heat_capacity(&self) -> &[f64];
+}
 
 /// Why a solve failed.
 #[derive(Debug, Clone, thiserror::Error, PartialEq)]
@@ -76,7 +88,7 @@ pub struct Workspace {
 
 impl Workspace {
     /// A workspace for `model`.
-    pub fn new(model: &Model) -> Workspace {
+    pub fn new<M: Steady + ?Sized>(model: &M) -> Workspace {
         let n = model.len();
         Workspace {
             jac: model.new_jacobian(),
@@ -103,8 +115,8 @@ fn norm2(v: &[f64]) -> f64 {
 /// solve J δ = -F (O(n), tridiagonal LU), cap |δ| at `max_step`, then
 /// backtrack (halving, at most 30 times) until ||F||₂ decreases.
 /// Returns the number of iterations. Allocates nothing.
-pub fn newton(
-    model: &Model,
+pub fn newton<M: Steady + ?Sized>(
+    model: &M,
     t: &mut [f64],
     opts: &NewtonOptions,
     ws: &mut Workspace,
@@ -193,14 +205,14 @@ pub fn newton(
 /// One linearly implicit (Rosenbrock-Euler) step of C dT/dt = F(T):
 /// (C/Δt - J) δ = F(Tⁿ), Tⁿ⁺¹ = Tⁿ + δ, with Δt in years. One tridiagonal
 /// solve per step; unconditionally stable for the linear part.
-pub fn implicit_step(
-    model: &Model,
+pub fn implicit_step<M: Steady + ?Sized>(
+    model: &M,
     t: &mut [f64],
     dt: f64,
     ws: &mut Workspace,
 ) -> Result<(), SolveError> {
     model.evaluate(t, &mut ws.f, Some(&mut ws.jac));
-    for (i, c) in model.planet.heat_capacity.iter().enumerate() {
+    for (i, c) in model.heat_capacity().iter().enumerate() {
         ws.jac.diag[i] -= c / dt;
     }
     ws.jac
@@ -222,8 +234,8 @@ pub fn implicit_step(
 /// Time-steps to equilibrium: stops when the largest change over one step
 /// of `dt` years, scaled to one year, is below `tol_per_year` (K per year).
 /// Returns the number of steps, or an error after `max_steps`.
-pub fn spin_up(
-    model: &Model,
+pub fn spin_up<M: Steady + ?Sized>(
+    model: &M,
     t: &mut [f64],
     dt: f64,
     tol_per_year: f64,
@@ -246,9 +258,9 @@ pub fn spin_up(
 /// C⁻¹ J with positive real part. O(n) by a Sturm count when J is
 /// tridiagonal with non-negative off-diagonal products (always the case for
 /// diffusive transport); otherwise a dense eigenvalue solve (faer).
-pub fn unstable_modes(model: &Model, t: &[f64], ws: &mut Workspace) -> usize {
+pub fn unstable_modes<M: Steady + ?Sized>(model: &M, t: &[f64], ws: &mut Workspace) -> usize {
     model.evaluate(t, &mut ws.f, Some(&mut ws.jac));
-    let cap = &model.planet.heat_capacity;
+    let cap = model.heat_capacity();
     if let Some(c) = ws.jac.count_positive_eigenvalues(cap) {
         return c;
     }

@@ -1,8 +1,8 @@
 //! Top-of-atmosphere insolation: daily means from the orbit (Berger 1978) and
 //! annual means by quadrature, or the Legendre form of North (1975).
 
-use crate::orbit::Orbit;
-use crate::quad::{gauss_legendre, p2};
+use crate::numerics::quad::{gauss_legendre, p2};
+use crate::physics::orbit::Orbit;
 use std::f64::consts::{FRAC_PI_2, PI};
 
 /// Daily-mean insolation at x = sin(latitude) for solar declination δ and

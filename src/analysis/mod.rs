@@ -1,0 +1,9 @@
+//! The researcher's questions built on the models: every branch of
+//! equilibria and its folds ([`branches`]), regime maps over two parameters
+//! ([`sweep`]), folds continued in two parameters ([`foldcurve`]) and
+//! periodic climates by shooting ([`periodic`]).
+
+pub mod branches;
+pub mod foldcurve;
+pub mod periodic;
+pub mod sweep;

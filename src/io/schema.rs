@@ -1,0 +1,350 @@
+//! The scenario key schema: the single source of every key's kind,
+//! default, unit, allowed range and meaning.
+
+/// The value kind and allowed range of a key.
+#[derive(Clone, Copy, Debug)]
+pub enum Kind {
+    /// Float in [lo, hi] (both finite; `open_lo` excludes lo).
+    Num {
+        /// Lower bound.
+        lo: f64,
+        /// Upper bound.
+        hi: f64,
+        /// Whether lo itself is excluded.
+        open_lo: bool,
+    },
+    /// Integer in [lo, hi].
+    Int {
+        /// Lower bound.
+        lo: i64,
+        /// Upper bound.
+        hi: i64,
+    },
+    /// Boolean.
+    Bool,
+    /// One of the listed words.
+    Choice(&'static [&'static str]),
+    /// Free text.
+    Text,
+}
+
+/// One documented scenario key.
+#[derive(Clone, Copy, Debug)]
+pub struct KeySpec {
+    /// `section.name`, or `name` at top level.
+    pub key: &'static str,
+    /// Kind and range.
+    pub kind: Kind,
+    /// Default as TOML text.
+    pub default: &'static str,
+    /// Unit ("" when dimensionless).
+    pub unit: &'static str,
+    /// Meaning.
+    pub doc: &'static str,
+}
+
+const fn num(lo: f64, hi: f64) -> Kind {
+    Kind::Num {
+        lo,
+        hi,
+        open_lo: false,
+    }
+}
+const fn pos(hi: f64) -> Kind {
+    Kind::Num {
+        lo: 0.0,
+        hi,
+        open_lo: true,
+    }
+}
+
+/// The schema: every key a scenario may hold.
+pub const SCHEMA: &[KeySpec] = &[
+    KeySpec {
+        key: "name",
+        kind: Kind::Text,
+        default: "\"unnamed\"",
+        unit: "",
+        doc: "Short name of the scenario.",
+    },
+    KeySpec {
+        key: "description",
+        kind: Kind::Text,
+        default: "\"\"",
+        unit: "",
+        doc: "Free text.",
+    },
+    KeySpec {
+        key: "grid.bands",
+        kind: Kind::Int { lo: 4, hi: 20000 },
+        default: "90",
+        unit: "",
+        doc: "Number of latitude bands (pole to pole, or equator to pole if symmetric).",
+    },
+    KeySpec {
+        key: "grid.spacing",
+        kind: Kind::Choice(&["sine", "latitude"]),
+        default: "\"sine\"",
+        unit: "",
+        doc: "Equal steps in sin(latitude) (equal areas) or in latitude.",
+    },
+    KeySpec {
+        key: "grid.symmetric",
+        kind: Kind::Bool,
+        default: "false",
+        unit: "",
+        doc: "Model the northern hemisphere only, mirrored at the equator.",
+    },
+    KeySpec {
+        key: "orbit.flux",
+        kind: pos(1e5),
+        default: "1361.0",
+        unit: "W m-2",
+        doc: "Stellar flux at the semi-major axis, S0.",
+    },
+    KeySpec {
+        key: "orbit.obliquity",
+        kind: num(0.0, 180.0),
+        default: "23.44",
+        unit: "deg",
+        doc: "Obliquity (axial tilt).",
+    },
+    KeySpec {
+        key: "orbit.eccentricity",
+        kind: num(0.0, 0.9),
+        default: "0.0",
+        unit: "",
+        doc: "Orbital eccentricity.",
+    },
+    KeySpec {
+        key: "orbit.perihelion",
+        kind: num(0.0, 360.0),
+        default: "283.0",
+        unit: "deg",
+        doc: "Solar longitude at perihelion, from the northern spring equinox.",
+    },
+    KeySpec {
+        key: "insolation.kind",
+        kind: Kind::Choice(&["orbital", "legendre"]),
+        default: "\"orbital\"",
+        unit: "",
+        doc: "Exact annual mean over the orbit (Berger 1978), or (S0/4)(1 + p2 P2(x)) (North 1975).",
+    },
+    KeySpec {
+        key: "insolation.p2",
+        kind: num(-1.0, 2.0),
+        default: "-0.482",
+        unit: "",
+        doc: "P2 coefficient of the Legendre law.",
+    },
+    KeySpec {
+        key: "radiation.kind",
+        kind: Kind::Choice(&["linear", "greybody"]),
+        default: "\"linear\"",
+        unit: "",
+        doc: "OLR = A + B T (Budyko 1969) or emissivity * sigma * T^4.",
+    },
+    KeySpec {
+        key: "radiation.a",
+        kind: num(-1e4, 1e4),
+        default: "203.3",
+        unit: "W m-2",
+        doc: "A of the linear law (OLR at 0 C).",
+    },
+    KeySpec {
+        key: "radiation.b",
+        kind: pos(1e3),
+        default: "2.09",
+        unit: "W m-2 K-1",
+        doc: "B of the linear law.",
+    },
+    KeySpec {
+        key: "radiation.emissivity",
+        kind: Kind::Num {
+            lo: 0.0,
+            hi: 1.0,
+            open_lo: true,
+        },
+        default: "0.61",
+        unit: "",
+        doc: "Emissivity of the grey-body law.",
+    },
+    KeySpec {
+        key: "radiation.co2_ppm",
+        kind: pos(1e6),
+        default: "280.0",
+        unit: "ppm",
+        doc: "CO2; forcing 5.35 ln(co2/co2_ref) W m-2 is subtracted from the OLR (Myhre et al. 1998).",
+    },
+    KeySpec {
+        key: "radiation.co2_ref_ppm",
+        kind: pos(1e6),
+        default: "280.0",
+        unit: "ppm",
+        doc: "CO2 at which the forcing is zero.",
+    },
+    KeySpec {
+        key: "albedo.kind",
+        kind: Kind::Choice(&["step", "smooth"]),
+        default: "\"step\"",
+        unit: "",
+        doc: "Step at the threshold (sub-grid ice edge) or tanh ramp.",
+    },
+    KeySpec {
+        key: "albedo.open",
+        kind: num(0.0, 1.0),
+        default: "0.319",
+        unit: "",
+        doc: "Open-surface albedo (at P2(x) = 0).",
+    },
+    KeySpec {
+        key: "albedo.open_p2",
+        kind: num(-1.0, 1.0),
+        default: "0.202",
+        unit: "",
+        doc: "P2 coefficient of the open-surface albedo (North et al. 1981).",
+    },
+    KeySpec {
+        key: "albedo.ice",
+        kind: num(0.0, 1.0),
+        default: "0.62",
+        unit: "",
+        doc: "Ice albedo.",
+    },
+    KeySpec {
+        key: "albedo.threshold",
+        kind: num(-150.0, 100.0),
+        default: "-10.0",
+        unit: "C",
+        doc: "Temperature below which the surface is ice.",
+    },
+    KeySpec {
+        key: "albedo.width",
+        kind: pos(100.0),
+        default: "2.0",
+        unit: "K",
+        doc: "Ramp width of the smooth law.",
+    },
+    KeySpec {
+        key: "transport.kind",
+        kind: Kind::Choice(&["diffusive", "relaxation"]),
+        default: "\"diffusive\"",
+        unit: "",
+        doc: "D d/dx[(1-x^2) dT/dx] (North 1975) or gamma (Tbar - T) (Budyko 1969).",
+    },
+    KeySpec {
+        key: "transport.diffusivity",
+        kind: num(0.0, 1e3),
+        default: "0.649",
+        unit: "W m-2 K-1",
+        doc: "D of diffusive transport.",
+    },
+    KeySpec {
+        key: "transport.relaxation",
+        kind: num(0.0, 1e3),
+        default: "3.04",
+        unit: "W m-2 K-1",
+        doc: "gamma of relaxation transport.",
+    },
+    KeySpec {
+        key: "seasons.enabled",
+        kind: Kind::Bool,
+        default: "false",
+        unit: "",
+        doc: "Trace the seasonal model (periodic climates) with `trace`; `periodic` and `run` always use it.",
+    },
+    KeySpec {
+        key: "seasons.mixed_layer_depth",
+        kind: pos(1e4),
+        default: "75.0",
+        unit: "m",
+        doc: "Ocean mixed-layer depth; C = rho c_p h (75 m gives 9.7 W yr m-2 K-1).",
+    },
+    KeySpec {
+        key: "seasons.land_fraction",
+        kind: num(0.0, 1.0),
+        default: "0.0",
+        unit: "",
+        doc: "Land fraction of every band.",
+    },
+    KeySpec {
+        key: "seasons.land_heat_capacity",
+        kind: pos(1e3),
+        default: "0.45",
+        unit: "W yr m-2 K-1",
+        doc: "Heat capacity of land.",
+    },
+    KeySpec {
+        key: "seasons.steps_per_year",
+        kind: Kind::Int { lo: 12, hi: 100000 },
+        default: "360",
+        unit: "",
+        doc: "Implicit time steps per year.",
+    },
+    KeySpec {
+        key: "solver.tolerance",
+        kind: Kind::Num {
+            lo: 1e-13,
+            hi: 1.0,
+            open_lo: false,
+        },
+        default: "1e-10",
+        unit: "W m-2",
+        doc: "Newton stops when max |F| is below this.",
+    },
+    KeySpec {
+        key: "solver.max_iterations",
+        kind: Kind::Int { lo: 1, hi: 100000 },
+        default: "200",
+        unit: "",
+        doc: "Newton iteration limit.",
+    },
+    KeySpec {
+        key: "solver.warm_start",
+        kind: num(-100.0, 200.0),
+        default: "30.0",
+        unit: "C",
+        doc: "Uniform temperature of the warm (ice-free) start.",
+    },
+    KeySpec {
+        key: "solver.cold_start",
+        kind: num(-200.0, 100.0),
+        default: "-60.0",
+        unit: "C",
+        doc: "Uniform temperature of the cold (snowball) start.",
+    },
+];
+
+/// Seawater density times specific heat, J m-3 K-1 (1025 kg m-3 x 3985
+/// J kg-1 K-1; common practice, no source), per seconds in a year.
+pub const OCEAN_HEAT_PER_METRE: f64 = 1025.0 * 3985.0 / (365.25 * 86400.0);
+
+/// The schema entry of `key`.
+pub fn spec(key: &str) -> Option<&'static KeySpec> {
+    SCHEMA.iter().find(|k| k.key == key)
+}
+
+/// The allowed values of a key as text ("0 to 90 deg").
+pub fn allowed_text(kind: Kind, unit: &str) -> String {
+    let u = if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" {unit}")
+    };
+    match kind {
+        Kind::Num {
+            lo,
+            hi,
+            open_lo: true,
+        } => format!("> {lo} and <= {hi}{u}"),
+        Kind::Num { lo, hi, .. } => format!("{lo} to {hi}{u}"),
+        Kind::Int { lo, hi } => format!("integer {lo} to {hi}"),
+        Kind::Bool => "true or false".into(),
+        Kind::Choice(c) => c
+            .iter()
+            .map(|w| format!("\"{w}\""))
+            .collect::<Vec<_>>()
+            .join(" or "),
+        Kind::Text => "text".into(),
+    }
+}

@@ -1,0 +1,14 @@
+//! Models: the physics laws assembled into residuals on the grid.
+//!
+//! - [`annual`]: the annual-mean residual F(T; p) and its tridiagonal Jacobian.
+//! - [`subgrid`]: the sub-grid ice edge of the step albedo.
+//! - [`climate`]: diagnostics of a state, state classes, equilibria from starts.
+//! - [`seasonal`]: the seasonal model, stepped implicitly through the year.
+
+pub mod annual;
+pub mod climate;
+pub mod seasonal;
+pub mod subgrid;
+
+pub use crate::physics::transport::Transport;
+pub use annual::{BandFluxes, Model, Param, Planet, RELAXATION_RAMP_BANDS};
