@@ -8,6 +8,10 @@ use crate::numerics::linalg::Tridiagonal;
 pub trait Steady {
     /// Number of unknowns.
     fn len(&self) -> usize;
+    /// True when there are no unknowns.
+    fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
     /// F(T) into `f`, and ∂F/∂T into `jac` when given. Allocates nothing.
     fn evaluate(&self, t: &[f64], f: &mut [f64], jac: Option<&mut Tridiagonal>);
     /// A Jacobian of the right shape.
