@@ -76,8 +76,19 @@ fn bad_input_exits_2_and_writes_nothing() {
         (vec!["solve", "--set", "grid.bands=2"], "grid.bands"),
         (vec!["solve", "--set", "grid.bands=100000000"], "grid.bands"),
         (vec!["solve", "--set", "radiation.b=inf"], "radiation.b"),
-        (vec!["solve", "--bogus"], "unknown option"),
-        (vec!["launch"], "unknown command"),
+        (vec!["solve", "--bogus"], "unexpected argument '--bogus'"),
+        (vec!["launch"], "unrecognized subcommand 'launch'"),
+        (vec!["trcae"], "similar subcommand exists: 'trace'"),
+        (
+            vec!["trace", "--cells", "3"],
+            "unexpected argument '--cells'",
+        ),
+        (
+            vec!["solve", "--start", "a", "--start", "b"],
+            "cannot be used multiple times",
+        ),
+        (vec!["trace", "--vary", "orbit.colour"], "possible values"),
+        (vec!["run"], "--years"),
     ];
     for (args, expect) in cases {
         let mut a = args.clone();
@@ -133,4 +144,72 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
         assert_eq!(code, 2, "{args:?}: {stderr}");
         assert!(!bad.exists());
     }
+}
+
+#[test]
+fn every_command_has_help_and_the_tool_a_version() {
+    // clap's help and version go to stdout with exit 0 (common practice, no source)
+    for cmd in [
+        "trace",
+        "map",
+        "merge",
+        "solve",
+        "periodic",
+        "run",
+        "sun",
+        "check",
+        "figures",
+        "completions",
+    ] {
+        let (code, stdout, stderr) = icefold(&[cmd, "--help"]);
+        assert_eq!(code, 0, "{cmd}: {stderr}");
+        assert!(
+            stdout.contains(&format!("Usage: icefold {cmd}")),
+            "{cmd}: {stdout}"
+        );
+    }
+    let (code, stdout, _) = icefold(&["--version"]);
+    assert_eq!(code, 0);
+    assert_eq!(
+        stdout.trim(),
+        format!("icefold {}", env!("CARGO_PKG_VERSION"))
+    );
+    let (code, stdout, _) = icefold(&["map", "--help"]);
+    assert_eq!(code, 0);
+    for opt in [
+        "--across",
+        "--vary",
+        "--cells",
+        "--threads",
+        "--shard",
+        "--fold-curves",
+        "--set",
+        "--out",
+        "--quiet",
+    ] {
+        assert!(stdout.contains(opt), "map --help lacks {opt}");
+    }
+}
+
+#[test]
+fn completions_for_each_shell() {
+    for (shell, marker) in [
+        ("bash", "complete -F"),
+        ("zsh", "#compdef icefold"),
+        ("fish", "complete -c icefold"),
+    ] {
+        let (code, stdout, stderr) = icefold(&["completions", shell]);
+        assert_eq!(code, 0, "{shell}: {stderr}");
+        assert!(
+            stdout.contains(marker),
+            "{shell}: {}",
+            &stdout[..stdout.len().min(200)]
+        );
+        assert!(
+            stdout.contains("periodic") && stdout.contains("fold-curves"),
+            "{shell}"
+        );
+    }
+    let (code, _, stderr) = icefold(&["completions", "tcsh"]);
+    assert_eq!(code, 2, "{stderr}");
 }

@@ -1,18 +1,17 @@
 //! `icefold map` and `icefold merge`: regime maps over two parameters.
+use super::context::{Args, CliError, VERSION, load, written_list};
+use super::progress::Progress;
 use crate::analysis::sweep::{
     MapSpec, STATES, Slice, compute_slice, join_boundaries, regime_label, state_bit,
 };
 use crate::cli::trace::parse_range;
-use crate::cli::{Args, CliError, VERSION, load, written_list};
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::netcdf::NcFile;
 use crate::io::plot;
 use crate::model::Param;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
-use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Format tag of shard files.
 const SHARD_FORMAT: &str = "icefold-map-shard-1";
@@ -153,9 +152,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         .num_threads(threads)
         .build()
         .map_err(|e| CliError::Failed(format!("cannot start worker threads: {e}")))?;
-    let interactive = std::io::stderr().is_terminal() && !args.quiet;
-    let done = AtomicUsize::new(0);
-    let total = indices.len();
+    let bar = Progress::bar("map", indices.len() as u64, "slices", args.quiet);
     let (warm, cold, tol) = (
         sc.num("solver.warm_start"),
         sc.num("solver.cold_start"),
@@ -166,22 +163,12 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
             .par_iter()
             .map(|&j| {
                 let s = compute_slice(&model, &spec, across, vary, j, warm, cold, tol);
-                let k = done.fetch_add(1, Ordering::Relaxed) + 1;
-                if interactive {
-                    let w = 30 * k / total.max(1);
-                    eprint!(
-                        "\r\x1b[2Kmap [{}{}] {k}/{total} slices",
-                        "#".repeat(w),
-                        "-".repeat(30 - w)
-                    );
-                }
+                bar.inc();
                 s
             })
             .collect()
     });
-    if interactive {
-        eprintln!();
-    }
+    bar.finish();
     let dir = args
         .out
         .clone()

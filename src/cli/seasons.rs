@@ -9,10 +9,10 @@
 //! followed by `latitude_deg,sin_latitude,temperature_c` rows; `--from FILE`
 //! refuses a file written for another scenario name or grid (exit 2).
 
+use super::context::{Args, CliError, load, out_dir, provenance, read_start, written_list};
 use crate::analysis::periodic::{
     Cycle, Periodic, ShootingOptions, cycle, find_periodic, polar_ice_edges,
 };
-use crate::cli::{Args, CliError, load, out_dir, provenance, read_start, written_list};
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::netcdf::NcFile;
 use crate::io::plot;
@@ -338,7 +338,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         starts.push(read_start(p, sm.model())?);
     }
     let search = find_periodic(&mut sm, &starts, &ShootingOptions::default());
-    crate::cli::report_starts(
+    super::context::report_starts(
         args.quiet,
         &search.failures,
         search.climates.len(),

@@ -1,10 +1,10 @@
 //! `icefold trace`: every branch of equilibria in one parameter.
+use super::context::{Args, CliError, load, out_dir, provenance, written_list};
+use super::progress::Progress;
 use crate::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
-use crate::cli::{Args, CliError, load, out_dir, provenance, written_list};
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::plot::{self, BranchCurve, FoldMark};
 use crate::model::Param;
-use std::io::IsTerminal;
 
 /// Parses and checks `--vary`, `--from`, `--to` against the model.
 pub fn parse_range(
@@ -63,17 +63,9 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
     let model = sc.model();
     let (param, from, to) = parse_range(args, &model)?;
-    let interactive = std::io::stderr().is_terminal();
     let quiet = args.quiet;
-    let mut progress = |msg: &str| {
-        if !quiet {
-            if interactive {
-                eprint!("\r\x1b[2Ktrace: {msg}");
-            } else {
-                eprintln!("trace: {msg}");
-            }
-        }
-    };
+    let bar = Progress::spinner("trace", quiet);
+    let mut progress = |msg: &str| bar.message(msg);
     let opts = TraceOptions {
         tolerance: sc.num("solver.tolerance"),
         ..TraceOptions::default()
@@ -100,9 +92,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     } else {
         trace_all(&model, param, from, to, warm, cold, &opts, &mut progress)
     };
-    if !quiet && interactive {
-        eprintln!();
-    }
+    bar.finish();
     for b in &h.branches {
         for e in &b.ends {
             if matches!(

@@ -1,0 +1,324 @@
+//! The command line as clap sees it: one struct per command, each option's
+//! doc comment is its `--help` text. [`Cli::into_args`] turns the parsed
+//! command into the [`Args`] the commands read (the second, validating
+//! stage lives with each command, where the scenario is known).
+
+use super::context::Args;
+use crate::model::Param;
+use clap::builder::PossibleValuesParser;
+use clap::{ArgAction, Parser, Subcommand};
+use std::path::PathBuf;
+
+/// Every equilibrium climate of a zonal-mean energy-balance planet: branches,
+/// folds (tipping points), regime maps and periodic seasonal climates.
+#[derive(Debug, Parser)]
+#[command(
+    name = "icefold",
+    version,
+    propagate_version = true,
+    arg_required_else_help = true,
+    after_help = "Without a SCENARIO the built-in default (scenarios/orbital.toml) is used. \
+                  Exit codes: 0 success, 1 a computation failed, 2 bad input."
+)]
+pub struct Cli {
+    /// The command to run.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The commands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Trace every branch of equilibria in one parameter: stable and
+    /// unstable states, folds, the jump at each fold, bistable windows.
+    Trace(TraceCmd),
+    /// Regime map: a trace in one parameter for every value of another, in
+    /// parallel; results do not depend on threads or shards.
+    Map(MapCmd),
+    /// Join `map --shard` results into exactly the files a single run writes.
+    Merge(MergeCmd),
+    /// Equilibria from warm (ice-free) and cold (snowball) starts, with
+    /// their stability.
+    Solve(SolveCmd),
+    /// Periodic (seasonally repeating) climates by shooting, with Floquet
+    /// multipliers.
+    Periodic(SolveCmd),
+    /// Integrate the seasonal model in time.
+    Run(RunCmd),
+    /// Daily-mean and annual-mean insolation of the scenario's orbit.
+    Sun(ScenarioCmd),
+    /// Validate the scenario and print it fully resolved, with units.
+    Check(CheckCmd),
+    /// Regenerate the README figures.
+    Figures(FiguresCmd),
+    /// Print a shell completion script (bash, zsh or fish) on stdout.
+    Completions(CompletionsCmd),
+}
+
+/// The scenario and its overrides.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct ScenarioOpts {
+    /// Scenario file (TOML); default: the built-in scenarios/orbital.toml.
+    #[arg(value_name = "SCENARIO")]
+    pub scenario: Option<PathBuf>,
+    /// Override a scenario key, e.g. `--set orbit.flux=1300` (repeatable).
+    #[arg(long = "set", value_name = "KEY=VALUE", action = ArgAction::Append)]
+    pub sets: Vec<String>,
+}
+
+/// Where outputs go and whether progress is shown.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct OutputOpts {
+    /// Output directory (default: out/<command>).
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// No progress on stderr.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+fn param_keys() -> PossibleValuesParser {
+    PossibleValuesParser::new(Param::ALL.iter().map(|p| p.key()))
+}
+
+/// A scenario-only command with outputs (`sun`).
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct ScenarioCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
+/// `check`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct CheckCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+}
+
+/// The traced parameter and its range (`trace`, `map`).
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct RangeOpts {
+    /// Parameter to vary (default orbit.flux).
+    #[arg(long, value_name = "KEY", value_parser = param_keys())]
+    pub vary: Option<String>,
+    /// Start of the range (default: 0.8 of the scenario's flux, or the
+    /// scenario's value minus 20%).
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub from: Option<String>,
+    /// End of the range (default: 1.15 of the scenario's flux, or the
+    /// scenario's value plus 20%).
+    #[arg(long, value_name = "Y", allow_negative_numbers = true)]
+    pub to: Option<String>,
+}
+
+/// `trace`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct TraceCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub range: RangeOpts,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
+/// `map`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct MapCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+    /// The slice parameter and its grid, KEY=FROM:TO:COUNT (default
+    /// orbit.obliquity=0:90:91).
+    #[arg(long, value_name = "KEY=FROM:TO:COUNT")]
+    pub across: Option<String>,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub range: RangeOpts,
+    /// Cells of the regular summary grid in the traced parameter (default 200).
+    #[arg(long, value_name = "N")]
+    pub cells: Option<String>,
+    /// Worker threads (default: all cores); results do not depend on it.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<String>,
+    /// Compute only slices K, K+N, K+2N, ... and write a shard file.
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
+    /// Also continue each boundary's fold in both parameters.
+    #[arg(long)]
+    pub fold_curves: bool,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
+/// `merge`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct MergeCmd {
+    /// Shard directories (their shard-*.json files) or shard files.
+    #[arg(value_name = "DIR", required = true)]
+    pub dirs: Vec<PathBuf>,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
+/// `solve` and `periodic`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct SolveCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+    /// Extra start: a profile.csv (columns latitude_deg, temperature_c).
+    #[arg(long, value_name = "FILE")]
+    pub start: Option<PathBuf>,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
+/// `run`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct RunCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+    /// Years to integrate.
+    #[arg(long, value_name = "N", required = true)]
+    pub years: String,
+    /// Start: `warm`, `cold` or a state.csv written by an earlier run
+    /// (default warm).
+    #[arg(long, value_name = "warm|cold|FILE")]
+    pub from: Option<String>,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
+/// `figures`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct FiguresCmd {
+    /// Directory to write into (default figures/).
+    #[arg(value_name = "DIR")]
+    pub dir: Option<PathBuf>,
+    /// No progress on stderr.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// `completions`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct CompletionsCmd {
+    /// The shell.
+    #[arg(value_enum)]
+    pub shell: clap_complete::Shell,
+}
+
+fn base(command: &str, s: ScenarioOpts, o: OutputOpts, line: String) -> Args {
+    Args {
+        command: command.into(),
+        scenario: s.scenario,
+        sets: s.sets,
+        out: o.out,
+        quiet: o.quiet,
+        line,
+        ..Args::default()
+    }
+}
+
+impl Cli {
+    /// The command's options as the commands read them; `line` is the
+    /// command line as given (provenance). `completions` has none (None).
+    pub fn into_args(self, line: String) -> Option<Args> {
+        let a = match self.command {
+            Command::Trace(c) => Args {
+                vary: c.range.vary,
+                from: c.range.from,
+                to: c.range.to,
+                ..base("trace", c.scenario, c.output, line)
+            },
+            Command::Map(c) => Args {
+                across: c.across,
+                vary: c.range.vary,
+                from: c.range.from,
+                to: c.range.to,
+                cells: c.cells,
+                threads: c.threads,
+                shard: c.shard,
+                fold_curves: c.fold_curves,
+                ..base("map", c.scenario, c.output, line)
+            },
+            Command::Merge(c) => Args {
+                rest: c.dirs,
+                ..base("merge", ScenarioOpts::default(), c.output, line)
+            },
+            Command::Solve(c) => Args {
+                start: c.start,
+                ..base("solve", c.scenario, c.output, line)
+            },
+            Command::Periodic(c) => Args {
+                start: c.start,
+                ..base("periodic", c.scenario, c.output, line)
+            },
+            Command::Run(c) => Args {
+                years: Some(c.years),
+                from: c.from,
+                ..base("run", c.scenario, c.output, line)
+            },
+            Command::Sun(c) => base("sun", c.scenario, c.output, line),
+            Command::Check(c) => base("check", c.scenario, OutputOpts::default(), line),
+            Command::Figures(c) => Args {
+                out: c.dir,
+                quiet: c.quiet,
+                command: "figures".into(),
+                line,
+                ..Args::default()
+            },
+            Command::Completions(_) => return None,
+        };
+        Some(a)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+
+    fn parse(argv: &[&str]) -> Result<Cli, clap::Error> {
+        Cli::try_parse_from(std::iter::once("icefold").chain(argv.iter().copied()))
+    }
+
+    #[test]
+    fn foreign_and_repeated_options_are_errors() {
+        use clap::error::ErrorKind;
+        // --cells belongs to map, not trace
+        let e = parse(&["trace", "--cells", "3"]).unwrap_err();
+        assert_eq!(e.kind(), ErrorKind::UnknownArgument);
+        let e = parse(&["trace", "--out", "a", "--out", "b"]).unwrap_err();
+        assert_eq!(e.kind(), ErrorKind::ArgumentConflict);
+        // --set is repeatable
+        let c = parse(&["solve", "--set", "a.b=1", "--set", "c.d=2"]).unwrap();
+        let a = c.into_args(String::new()).unwrap();
+        assert_eq!(a.sets, ["a.b=1", "c.d=2"]);
+        // negative numbers are values, not options
+        let c = parse(&["trace", "--vary", "albedo.threshold", "--from", "-20"]).unwrap();
+        assert_eq!(
+            c.into_args(String::new()).unwrap().from.as_deref(),
+            Some("-20")
+        );
+    }
+}
