@@ -115,9 +115,9 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     assert_eq!(code, 0, "{stderr}");
     assert!(stdout.contains("polar-caps -> snowball"), "{stdout}");
     let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
-    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_deg,state,stable,unstable_modes\n"));
+    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes\n"));
     let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
-    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_deg,from_state,to_state\n"));
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state\n"));
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }

@@ -370,6 +370,16 @@ fn run_and_periodic_write_their_outputs() {
     assert_eq!(ts.lines().count(), 1 + 3 * 36);
     assert!(!ts.contains("NaN"));
     let state = d.join("state.csv");
+    // a plain table (a CSV reader's default settings load it) and a side file
+    let text = std::fs::read_to_string(&state).unwrap();
+    assert!(
+        text.starts_with("latitude_deg,sin_latitude,temperature_c\n"),
+        "{text}"
+    );
+    assert_eq!(text.lines().count(), 1 + 24);
+    let meta: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("state.json")).unwrap()).unwrap();
+    assert_eq!(meta["bands"], 24);
     let d2 = temp_dir("run2");
     cmd_run(&args("run", &d2, &sets), 1, Some(state.to_str().unwrap())).unwrap();
     let d3 = temp_dir("periodic");
@@ -381,6 +391,7 @@ fn run_and_periodic_write_their_outputs() {
         "seasonal_cycle_1.svg",
         "seasonal_cycle_1.png",
         "annual_mean.csv",
+        "ice_edges.csv",
         "profiles.svg",
         "summary.json",
         "scenario.toml",
@@ -393,6 +404,26 @@ fn run_and_periodic_write_their_outputs() {
         serde_json::from_str(&std::fs::read_to_string(d3.join("summary.json")).unwrap()).unwrap();
     let c = &summary["periodic_climates"][0];
     assert!(c["ice_extent"]["max"]["day_of_year"].is_number());
+    // edge extremes bracket every daily edge in ice_edges.csv
+    let edges = std::fs::read_to_string(d3.join("ice_edges.csv")).unwrap();
+    assert!(edges.starts_with("equilibrium,day_of_year,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,ice_edge_south_deg\n"));
+    assert_eq!(
+        edges.lines().count(),
+        1 + 36 * summary["periodic_climates"].as_array().unwrap().len()
+    );
+    let lo = c["ice_edges"]["north"]["most_equatorward"]["latitude_deg"]
+        .as_f64()
+        .unwrap();
+    let hi = c["ice_edges"]["north"]["most_poleward"]["latitude_deg"]
+        .as_f64()
+        .unwrap();
+    for row in edges.lines().skip(1).filter(|r| r.starts_with("1,")) {
+        let north: f64 = row.split(',').nth(4).unwrap().parse().unwrap();
+        assert!(
+            (0.0..=90.0).contains(&north) && north >= lo && north <= hi,
+            "{row}"
+        );
+    }
     assert!(c["periodicity_residual_k"].as_f64().unwrap() < 1e-9);
     let csv = std::fs::read_to_string(d3.join("seasonal_cycle.csv")).unwrap();
     assert!(csv.starts_with("equilibrium,latitude_deg,day_of_year,temperature_c,ice\n"));
@@ -415,6 +446,9 @@ fn bad_input_is_rejected_and_writes_nothing() {
     .unwrap();
     let state = d.join("state.csv");
     let s = state.to_str().unwrap();
+    let orphan_path = d.join("orphan.csv");
+    std::fs::copy(&state, &orphan_path).unwrap();
+    let orphan = orphan_path.to_str().unwrap().to_string();
     let cases: Vec<(Vec<&str>, usize, Option<&str>)> = vec![
         (
             vec!["grid.bands=30", "seasons.steps_per_year=24"],
@@ -434,6 +468,8 @@ fn bad_input_is_rejected_and_writes_nothing() {
         (vec!["seasons.steps_per_year=0"], 1, None),
         (vec!["seasons.land_fraction=1.5"], 1, None),
         (vec!["grid.bands=24"], 1, Some("/nonexistent/state.csv")),
+        // a table without its side file
+        (vec!["grid.bands=24"], 1, Some(orphan.as_str())),
     ];
     for (sets, years, from) in cases {
         let out = temp_dir("bad");
@@ -448,6 +484,7 @@ fn bad_input_is_rejected_and_writes_nothing() {
     lines[3] = lines[3].rsplit_once(',').unwrap().0.to_string() + ",NaN";
     let broken = d.join("broken.csv");
     std::fs::write(&broken, lines.join("\n")).unwrap();
+    std::fs::copy(d.join("state.json"), d.join("broken.json")).unwrap();
     let out = temp_dir("bad-nan");
     let e = cmd_run(
         &args("run", &out, &["grid.bands=24", "seasons.steps_per_year=24"]),

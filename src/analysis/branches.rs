@@ -146,17 +146,10 @@ pub struct Hysteresis {
     pub failures: Vec<String>,
 }
 
-/// Most poleward northern ice edge: 90 if ice-free, 0 if snowball.
+/// The northern hemisphere's most poleward ice edge, deg: 90 if ice-free,
+/// 0 if snowball ([`crate::model::climate::hemisphere_ice_edges`]).
 pub fn poleward_edge_deg(d: &Diagnostics) -> f64 {
-    match d.state {
-        State::IceFree => 90.0,
-        State::Snowball => 0.0,
-        _ => d
-            .ice_edges_deg
-            .last()
-            .copied()
-            .unwrap_or(if d.ice_area_fraction > 0.5 { 0.0 } else { 90.0 }),
-    }
+    d.ice_edge_north_deg
 }
 
 fn traced(model: &Model, p: f64, u: Vec<f64>, unstable: usize, residual: f64) -> TracedPoint {

@@ -287,23 +287,11 @@ pub fn find_periodic(
     PeriodicSearch { climates, failures }
 }
 
-/// Latitudes (deg) of the edges of the polar ice: `north` is the
-/// southernmost latitude of the ice connected to the North Pole (90 when the
-/// pole is ice-free, -90 for a snowball), `south` the northernmost latitude
-/// of the ice connected to the South Pole (-90 when ice-free, 90 for a
-/// snowball).
+/// The most poleward ice edge of each hemisphere, deg, (north, south), by
+/// the conventions of [`crate::model::climate::hemisphere_ice_edges`]: 90
+/// (-90) with no ice in the hemisphere, 0 when all of it is ice.
 pub fn polar_ice_edges(model: &Model, t: &[f64]) -> (f64, f64) {
-    let iv = model.ice_intervals(t);
-    let tiny = 1e-12;
-    let north = match iv.last() {
-        Some(&(a, b)) if b >= 1.0 - tiny => a.clamp(-1.0, 1.0).asin().to_degrees(),
-        _ => 90.0,
-    };
-    let south = match iv.first() {
-        Some(&(a, b)) if a <= -1.0 + tiny => b.clamp(-1.0, 1.0).asin().to_degrees(),
-        _ => -90.0,
-    };
-    (north, south)
+    crate::model::climate::hemisphere_ice_edges(&model.ice_intervals(t), model.grid.symmetric)
 }
 
 /// One periodic climate sampled through the year.
@@ -347,6 +335,26 @@ impl Cycle {
             }
         }
         (lo, hi)
+    }
+
+    /// Extremes of one ice edge over the year: ((day, latitude) where it is
+    /// most equatorward, (day, latitude) where it is most poleward), for
+    /// the northern (`north = true`) or southern edge ([`polar_ice_edges`]).
+    pub fn edge_extremes(&self, north: bool) -> ((f64, f64), (f64, f64)) {
+        let mut equatorward = (0.0, f64::INFINITY);
+        let mut poleward = (0.0, f64::NEG_INFINITY);
+        for (k, &(n, s)) in self.ice_edges_deg.iter().enumerate() {
+            let day = self.times[k] * DAYS_PER_YEAR;
+            // distance from the equator: |latitude|
+            let e = if north { n } else { s };
+            if e.abs() < equatorward.1.abs() {
+                equatorward = (day, e);
+            }
+            if e.abs() > poleward.1.abs() || poleward.1.is_infinite() {
+                poleward = (day, e);
+            }
+        }
+        (equatorward, poleward)
     }
 }
 

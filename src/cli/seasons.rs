@@ -1,13 +1,13 @@
 //! `icefold run` (time integration of the seasonal model) and
 //! `icefold periodic` (periodic climates by shooting) on the command line.
 //!
-//! State files (`state.csv`) start with one comment line naming the
-//! scenario and the grid,
-//!
-//! `# icefold state: scenario=NAME; bands=N; spacing=sine; symmetric=false; steps_per_year=K; year_fraction=0`
-//!
-//! followed by `latitude_deg,sin_latitude,temperature_c` rows; `--from FILE`
-//! refuses a file written for another scenario name or grid (exit 2).
+//! State files are a plain table `state.csv` (`latitude_deg`,
+//! `sin_latitude`, `temperature_c`; it loads with any CSV reader) and beside
+//! it `state.json`, which names the scenario and the grid
+//! (`{"format": "icefold-state-1", "scenario": NAME, "bands": N, "spacing":
+//! "sine", "symmetric": false, "steps_per_year": K, "year_fraction": 0}`);
+//! `--from FILE` reads both and refuses a state written for another
+//! scenario name or grid (exit 2).
 
 use super::context::{Args, CliError, load, out_dir, provenance, read_start, written_list};
 use crate::analysis::periodic::{
@@ -34,58 +34,71 @@ fn seasonal_error(e: SeasonalError) -> CliError {
     }
 }
 
-/// The header line of a state file for this scenario and model.
-pub fn state_header(sc: &Scenario, sm: &SeasonalModel) -> String {
+/// Format tag of state side files.
+const STATE_FORMAT: &str = "icefold-state-1";
+
+/// The side file (`state.json`) that names the scenario and grid of a state.
+pub fn state_meta(sc: &Scenario, sm: &SeasonalModel) -> serde_json::Value {
     let g = &sm.model().grid;
-    format!(
-        "# icefold state: scenario={}; bands={}; spacing={}; symmetric={}; steps_per_year={}; year_fraction=0",
-        sc.name().replace([';', '\n', '\r'], " "),
-        g.len(),
-        g.spacing,
-        g.symmetric,
-        sm.steps_per_year()
-    )
+    serde_json::json!({
+        "format": STATE_FORMAT,
+        "tool": format!("icefold {}", super::context::VERSION),
+        "scenario": sc.name(),
+        "bands": g.len(),
+        "spacing": g.spacing.to_string(),
+        "symmetric": g.symmetric,
+        "steps_per_year": sm.steps_per_year(),
+        "year_fraction": 0.0,
+    })
 }
 
-/// Reads a state file written by `run` and checks that it belongs to this
-/// scenario (same name) and grid (bands, spacing, symmetry and the band
-/// latitudes to 1e-6 deg). Any mismatch or malformed content is a usage
-/// error (exit 2).
+/// The side file of a state table: `state.json` beside `state.csv` (the
+/// same stem with `.json`).
+fn side_file(path: &Path) -> std::path::PathBuf {
+    path.with_extension("json")
+}
+
+/// Reads a state written by `run` (the table and its side file) and checks
+/// that it belongs to this scenario (same name) and grid (bands, spacing,
+/// symmetry and the band latitudes to 1e-6 deg). Any mismatch or malformed
+/// content is a usage error (exit 2).
 pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, CliError> {
     let bad = |why: String| CliError::Usage(format!("--from {}: {why}", path.display()));
-    let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
-    let mut lines = text.lines();
-    let header = lines
-        .next()
-        .and_then(|l| l.strip_prefix("# icefold state:"))
-        .ok_or_else(|| {
-            bad("not an icefold state file (its first line must be `# icefold state: ...`, as written by `icefold run`)".into())
-        })?;
-    let mut fields = std::collections::BTreeMap::new();
-    for part in header.split(';') {
-        if let Some((k, v)) = part.split_once('=') {
-            fields.insert(k.trim().to_string(), v.trim().to_string());
-        }
+    let meta_path = side_file(path);
+    let meta_text = std::fs::read_to_string(&meta_path).map_err(|e| {
+        bad(format!(
+            "cannot read its side file {} ({e}); a state is the state.csv and state.json written by `icefold run`",
+            meta_path.display()
+        ))
+    })?;
+    let meta: serde_json::Value = serde_json::from_str(&meta_text)
+        .map_err(|e| bad(format!("{}: not JSON ({e})", meta_path.display())))?;
+    if meta["format"] != STATE_FORMAT {
+        return Err(bad(format!(
+            "{}: not an icefold state side file (format is not `{STATE_FORMAT}`)",
+            meta_path.display()
+        )));
     }
     let g = &model.grid;
-    let name = sc.name().replace([';', '\n', '\r'], " ");
     let expect = [
-        ("scenario", name.trim().to_string()),
-        ("bands", g.len().to_string()),
-        ("spacing", g.spacing.to_string()),
-        ("symmetric", g.symmetric.to_string()),
+        ("scenario", serde_json::Value::from(sc.name())),
+        ("bands", g.len().into()),
+        ("spacing", g.spacing.to_string().into()),
+        ("symmetric", g.symmetric.into()),
     ];
     for (k, want) in &expect {
-        match fields.get(*k) {
+        match meta.get(*k) {
             Some(got) if got == want => {}
             Some(got) => {
                 return Err(bad(format!(
                     "written for {k} = {got}, but this run has {k} = {want}"
                 )));
             }
-            None => return Err(bad(format!("the header names no {k}"))),
+            None => return Err(bad(format!("the side file names no {k}"))),
         }
     }
+    let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
+    let lines = text.lines();
     let mut rows = lines.filter(|l| !l.trim().is_empty() && !l.starts_with('#'));
     let cols: Vec<&str> = rows
         .next()
@@ -147,8 +160,8 @@ pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, Cl
 /// the seasonal model for `years` whole years from the start and writes
 /// `timeseries.csv` (every step: `time_years`, `day_of_year`,
 /// `global_mean_temperature_c`, `ice_area_fraction`, `ice_edge_north_deg`,
-/// `ice_edge_south_deg`), `state.csv` (the final state, with its header
-/// line), `summary.json` and `scenario.toml`. Default start: warm.
+/// `ice_edge_south_deg`), `state.csv` (the final state) with its side file
+/// `state.json`, `summary.json` and `scenario.toml`. Default start: warm.
 pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, CliError> {
     let sc = load(args)?;
     let mut sm = sc.seasonal_model().map_err(seasonal_error)?;
@@ -213,8 +226,6 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
         )));
     }
     let model = sm.model();
-    let mut state = state_header(&sc, &sm);
-    state.push('\n');
     let mut st = Table::new(&["latitude_deg", "sin_latitude", "temperature_c"]);
     for (i, lat) in model.grid.latitudes_deg().iter().enumerate() {
         st.push_row(vec![
@@ -223,7 +234,6 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
             Cell::Num(t[i]),
         ]);
     }
-    state += &st.to_csv()?;
     let d = diagnose(&sm.annual_model(), &t);
     let (north, south) = polar_ice_edges(model, &t);
     let mut summary = provenance(&sc, args);
@@ -244,7 +254,11 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     let dir = out_dir(args);
     let mut out = OutputSet::new();
     out.add_table(dir.join("timeseries.csv"), &table)?;
-    out.add_text(dir.join("state.csv"), &state);
+    out.add_table(dir.join("state.csv"), &st)?;
+    out.add_text(
+        dir.join("state.json"),
+        &(serde_json::to_string_pretty(&state_meta(&sc, &sm)).unwrap_or_default() + "\n"),
+    );
     out.add_text(
         dir.join("summary.json"),
         &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
@@ -316,8 +330,21 @@ fn climate_json(
             "min": {"day_of_year": dmin, "ice_area_fraction": fmin},
             "max": {"day_of_year": dmax, "ice_area_fraction": fmax},
         },
+        "ice_edges": edge_extremes_json(c),
         "seasonal_amplitude_max_k": c.amplitude.iter().fold(0.0f64, |m, a| m.max(*a)),
     })
+}
+
+/// The extremes of both ice edges over the year, with their days.
+fn edge_extremes_json(c: &Cycle) -> serde_json::Value {
+    let side = |north: bool| {
+        let ((d0, e0), (d1, e1)) = c.edge_extremes(north);
+        serde_json::json!({
+            "most_equatorward": {"day_of_year": d0, "latitude_deg": e0},
+            "most_poleward": {"day_of_year": d1, "latitude_deg": e1},
+        })
+    };
+    serde_json::json!({"north": side(true), "south": side(false)})
 }
 
 /// `icefold periodic [SCENARIO] [--start FILE]`: the periodic climates of
@@ -326,8 +353,11 @@ fn climate_json(
 /// `seasonal_cycle.csv` (`equilibrium`, `latitude_deg`, `day_of_year`,
 /// `temperature_c`, `ice`), `seasonal_cycle.nc` (CF NetCDF),
 /// `seasonal_cycle_K.svg/.png` (latitude-time temperature with the ice
-/// edges), `annual_mean.csv` and `profiles.svg/.png` (annual-mean profiles),
-/// `summary.json` (with the minimum and maximum ice extent and their days)
+/// edges), `ice_edges.csv` (`equilibrium`, `day_of_year`,
+/// `global_mean_temperature_c`, `ice_area_fraction`, `ice_edge_north_deg`,
+/// `ice_edge_south_deg`), `annual_mean.csv` and `profiles.svg/.png`
+/// (annual-mean profiles), `summary.json` (with the minimum and maximum ice
+/// extent and the extremes of each ice edge, with their days)
 /// and `scenario.toml`.
 pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
@@ -371,6 +401,14 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         "temperature_c",
         "seasonal_amplitude_k",
     ]);
+    let mut edges = Table::new(&[
+        "equilibrium",
+        "day_of_year",
+        "global_mean_temperature_c",
+        "ice_area_fraction",
+        "ice_edge_north_deg",
+        "ice_edge_south_deg",
+    ]);
     let neq = cycles.len();
     let mut nc_t = Vec::with_capacity(neq * steps * n);
     let mut nc_ice = Vec::with_capacity(neq * steps * n);
@@ -394,6 +432,17 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
                 Cell::Num(lat[i]),
                 Cell::Num(c.annual_mean[i]),
                 Cell::Num(c.amplitude[i]),
+            ]);
+        }
+        for k in 0..steps {
+            let (north, south) = c.ice_edges_deg[k];
+            edges.push_row(vec![
+                Cell::Int(e as i64 + 1),
+                Cell::Num(days[k]),
+                Cell::Num(c.global_mean_c[k]),
+                Cell::Num(c.ice_area_fraction[k]),
+                Cell::Num(north),
+                Cell::Num(south),
             ]);
         }
         for k in 0..steps {
@@ -518,6 +567,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     out.add_table(dir.join("seasonal_cycle.csv"), &long)?;
     out.add(dir.join("seasonal_cycle.nc"), nc.to_bytes()?);
     out.add_table(dir.join("annual_mean.csv"), &annual)?;
+    out.add_table(dir.join("ice_edges.csv"), &edges)?;
     out.add(dir.join("profiles.svg"), fig.svg);
     out.add(dir.join("profiles.png"), fig.png);
     out.add_text(

@@ -38,10 +38,13 @@ pub fn parse_range(
         }
     };
     let (dlo, dhi) = if param == Param::Flux {
-        (0.8 * current, 1.15 * current)
+        (decimal(0.8 * current), decimal(1.15 * current))
     } else {
         let w = 0.2 * current.abs().max(1.0);
-        ((current - w).max(vlo), (current + w).min(vhi))
+        (
+            decimal((current - w).max(vlo)),
+            decimal((current + w).min(vhi)),
+        )
     };
     let from = num("--from", &args.from, dlo)?;
     let to = num("--to", &args.to, dhi)?;
@@ -56,6 +59,16 @@ pub fn parse_range(
         )));
     }
     Ok((param, from, to))
+}
+
+/// `x` rounded to 12 significant digits, so that a computed range end is
+/// the decimal a user would write (0.8 x 1361 = 1088.8, not
+/// 1088.8000000000002).
+pub fn decimal(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    format!("{x:.11e}").parse().unwrap_or(x)
 }
 
 /// Runs `trace`.
@@ -194,7 +207,7 @@ fn branches_table(h: &Hysteresis) -> Table {
         key,
         "global_mean_temperature_c",
         "ice_area_fraction",
-        "ice_edge_deg",
+        "ice_edge_north_deg",
         "state",
         "stable",
         "unstable_modes",
@@ -224,7 +237,7 @@ fn folds_table(h: &Hysteresis) -> Table {
         key,
         "global_mean_temperature_c",
         "ice_area_fraction",
-        "ice_edge_deg",
+        "ice_edge_north_deg",
         "from_state",
         "to_state",
     ]);
@@ -260,7 +273,7 @@ fn folds_json(h: &Hysteresis) -> serde_json::Value {
                 "value": f.point.p,
                 "global_mean_temperature_c": d.global_mean_c,
                 "ice_area_fraction": d.ice_area_fraction,
-                "ice_edge_deg": poleward_edge_deg(d),
+                "ice_edge_north_deg": poleward_edge_deg(d),
                 "residual_wm2": f.point.residual,
                 "from_state": f.from_state.label(),
                 "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
@@ -315,4 +328,22 @@ fn hysteresis_figure(
         &branches,
         &folds,
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::decimal;
+
+    #[test]
+    fn range_ends_are_the_decimals_a_user_writes() {
+        // f64 products that miss the decimal (IEEE 754 arithmetic, common
+        // practice, no source)
+        assert_ne!(1.15 * 1361.0, 1565.15);
+        assert_ne!(23.44 - 0.2 * 23.44, 18.752);
+        assert_eq!(decimal(0.8 * 1361.0), 1088.8);
+        assert_eq!(decimal(1.15 * 1361.0), 1565.15);
+        assert_eq!(decimal(23.44 - 0.2 * 23.44), 18.752);
+        assert_eq!(decimal(0.0), 0.0);
+        assert_eq!(decimal(-12.000000000000002), -12.0);
+    }
 }

@@ -44,6 +44,14 @@ pub struct Diagnostics {
     /// Northern-hemisphere latitudes (deg) where the surface turns between
     /// ice and open, ascending.
     pub ice_edges_deg: Vec<f64>,
+    /// The northern hemisphere's most poleward ice edge, deg (see
+    /// [`hemisphere_ice_edges`]): 90 with no ice in the hemisphere, 0 when
+    /// all of it is ice.
+    pub ice_edge_north_deg: f64,
+    /// The southern hemisphere's most poleward ice edge, deg: -90 with no
+    /// ice in the hemisphere, 0 when all of it is ice (on a symmetric grid,
+    /// the mirror of the northern one).
+    pub ice_edge_south_deg: f64,
     /// Planetary albedo 1 - (global absorbed)/(global insolation).
     pub planetary_albedo: f64,
     /// Kind of climate.
@@ -101,6 +109,7 @@ pub fn diagnose(model: &Model, t: &[f64]) -> Diagnostics {
             State::Other
         }
     };
+    let (north, south) = hemisphere_ice_edges(&intervals, g.symmetric);
     let ins = g.mean(&fl.insolation);
     let abs = g.mean(&fl.absorbed);
     let net: Vec<f64> = (0..g.len())
@@ -110,9 +119,53 @@ pub fn diagnose(model: &Model, t: &[f64]) -> Diagnostics {
         global_mean_c: g.mean(t),
         ice_area_fraction: model.ice_area_fraction(t),
         ice_edges_deg: edges,
+        ice_edge_north_deg: north,
+        ice_edge_south_deg: south,
         planetary_albedo: if ins > 0.0 { 1.0 - abs / ins } else { 0.0 },
         state,
         energy_imbalance: g.mean(&net),
+    }
+}
+
+/// The most poleward ice edge of each hemisphere, deg, from the merged,
+/// ascending ice intervals in x = sin(latitude): (north, south). The
+/// northern one is the largest latitude in (0, 90) where the surface turns
+/// between ice and open; 90 when the hemisphere has no ice and 0 when all
+/// of it is ice. So a polar cap gives its edge, an equatorial belt its
+/// poleward edge, a cap plus a belt the cap's edge, a snowball 0 and an
+/// ice-free planet 90. The southern one mirrors it (-90 ice-free, 0 all
+/// ice). On a symmetric grid (one hemisphere, x in [0, 1]) south = -north.
+pub fn hemisphere_ice_edges(intervals: &[(f64, f64)], symmetric: bool) -> (f64, f64) {
+    let tiny = 1e-12;
+    let edge = |sign: f64| -> f64 {
+        // the hemisphere as y = sign * x in [0, 1]; its intervals mapped there
+        let mut covered = 0.0;
+        let mut best: Option<f64> = None;
+        for &(a, b) in intervals {
+            let (lo, hi) = if sign > 0.0 { (a, b) } else { (-b, -a) };
+            let (lo, hi) = (lo.max(0.0), hi.min(1.0));
+            if hi <= lo {
+                continue;
+            }
+            covered += hi - lo;
+            for e in [lo, hi] {
+                if e > tiny && e < 1.0 - tiny {
+                    best = Some(best.map_or(e, |m: f64| m.max(e)));
+                }
+            }
+        }
+        let y = match best {
+            Some(e) => e,
+            None if covered > 0.5 => 0.0,
+            None => 1.0,
+        };
+        sign * y.asin().to_degrees()
+    };
+    let north = edge(1.0);
+    if symmetric {
+        (north, -north)
+    } else {
+        (north, edge(-1.0))
     }
 }
 
@@ -232,5 +285,35 @@ pub fn find_equilibria(model: &Model, starts: &[Start], opts: &NewtonOptions) ->
     Search {
         equilibria,
         failures,
+    }
+}
+
+#[cfg(test)]
+mod edge_tests {
+    use super::hemisphere_ice_edges;
+
+    // The conventions documented in the README (common practice, no source):
+    // latitude of an edge at x is asin(x).
+    #[test]
+    fn hemisphere_edges_follow_the_conventions() {
+        let deg = |x: f64| x.asin().to_degrees();
+        // ice-free and snowball
+        assert_eq!(hemisphere_ice_edges(&[], false), (90.0, -90.0));
+        assert_eq!(hemisphere_ice_edges(&[(-1.0, 1.0)], false), (0.0, 0.0));
+        // caps
+        let (n, s) = hemisphere_ice_edges(&[(-1.0, -0.9), (0.95, 1.0)], false);
+        assert!((n - deg(0.95)).abs() < 1e-12 && (s + deg(0.9)).abs() < 1e-12);
+        // an equatorial belt: its poleward edges
+        let (n, s) = hemisphere_ice_edges(&[(-0.3, 0.2)], false);
+        assert!((n - deg(0.2)).abs() < 1e-12 && (s + deg(0.3)).abs() < 1e-12);
+        // cap plus belt: the cap's edge
+        let (n, _) = hemisphere_ice_edges(&[(-0.2, 0.2), (0.9, 1.0)], false);
+        assert!((n - deg(0.9)).abs() < 1e-12);
+        // one hemisphere ice-free, the other fully covered
+        let (n, s) = hemisphere_ice_edges(&[(-1.0, 0.0)], false);
+        assert_eq!((n, s), (90.0, 0.0));
+        // symmetric grid: the south mirrors the north
+        let (n, s) = hemisphere_ice_edges(&[(0.8, 1.0)], true);
+        assert!((n - deg(0.8)).abs() < 1e-12 && s == -n);
     }
 }
