@@ -69,7 +69,7 @@ pub struct ScenarioOpts {
 /// Where outputs go and whether progress is shown.
 #[derive(Debug, Clone, Default, clap::Args)]
 pub struct OutputOpts {
-    /// Output directory (default: out/<command>).
+    /// Output directory (default: out/COMMAND).
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// No progress on stderr.
