@@ -86,13 +86,116 @@ fn threads_and_shards_give_identical_bytes() {
         rows.iter()
             .any(|r| r[0].parse::<f64>().unwrap() >= 75.0 && r[3] == "equatorial-belt")
     );
-    // a CF NetCDF-3 file
-    let nc = std::fs::read(d1.join("map.nc")).unwrap();
-    assert_eq!(&nc[..4], b"CDF\x02");
-    let text = String::from_utf8_lossy(&nc);
-    assert!(
-        text.contains("Conventions") && text.contains("CF-1.8") && text.contains("flag_meanings")
+    check_map_nc(&d1.join("map.nc"), &rows);
+}
+
+/// map.nc, read back with netcdf3's reader: a CF-1.8 CDF-2 file whose
+/// per-cell counts agree with its per-climate variables (filled past the
+/// count), whose states make up the regime mask, and whose climates are
+/// stable points of map.csv (same global mean, same state; for polar caps
+/// the cap edge is map.csv's last northern edge, mirrored in the south).
+fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
+    use icefold::io::netcdf::{FILL_F64, FILL_I32};
+    let bytes = std::fs::read(path).unwrap();
+    assert_eq!(&bytes[..4], b"CDF\x02");
+    let mut r = netcdf3::FileReader::open(path).unwrap();
+    let ds = r.data_set();
+    let text = |v: &str, a: &str| ds.get_var_attr_as_string(v, a).unwrap_or_default();
+    assert_eq!(
+        ds.get_global_attr_as_string("Conventions").unwrap(),
+        "CF-1.8"
     );
+    assert_eq!(ds.dim_size("orbit_obliquity"), Some(7));
+    assert_eq!(ds.dim_size("orbit_flux"), Some(40));
+    assert_eq!(ds.dim_size("nv"), Some(2));
+    let nclim = ds.dim_size("climate").unwrap();
+    assert_eq!(text("orbit_obliquity", "axis"), "X");
+    assert_eq!(text("orbit_flux", "axis"), "Y");
+    assert_eq!(text("orbit_flux", "bounds"), "orbit_flux_bnds");
+    let cell3 = ["orbit_flux", "orbit_obliquity", "climate"];
+    for v in [
+        "state",
+        "global_mean_temperature",
+        "ice_edge_north_deg",
+        "ice_edge_south_deg",
+    ] {
+        assert_eq!(ds.get_var(v).unwrap().dim_names(), cell3, "{v}");
+    }
+    for v in ds.get_var_names() {
+        assert!(!text(&v, "long_name").is_empty(), "{v} has no long_name");
+        assert!(!text(&v, "units").is_empty(), "{v} has no units");
+    }
+    let t = "global_mean_temperature";
+    assert_eq!(text(t, "standard_name"), "surface_temperature");
+    assert_eq!(text(t, "units"), "degC");
+    assert_eq!(ds.get_var_attr_f64(t, "_FillValue"), Some(&[FILL_F64][..]));
+    assert_eq!(text("ice_edge_north_deg", "units"), "degrees_north");
+    assert_eq!(
+        text("state", "flag_meanings"),
+        "ice_free polar_caps equatorial_belt snowball other"
+    );
+    assert_eq!(
+        ds.get_var_attr_i32("state", "flag_values"),
+        Some(&[1, 2, 4, 8, 16][..])
+    );
+    let obliquity = r.read_var_f64("orbit_obliquity").unwrap();
+    let flux = r.read_var_f64("orbit_flux").unwrap();
+    let bnds = r.read_var_f64("orbit_flux_bnds").unwrap();
+    let count = r.read_var_i32("stable_climates").unwrap();
+    let regime = r.read_var_i32("regime").unwrap();
+    let state = r.read_var_i32("state").unwrap();
+    let mean = r.read_var_f64(t).unwrap();
+    let north = r.read_var_f64("ice_edge_north_deg").unwrap();
+    let south = r.read_var_f64("ice_edge_south_deg").unwrap();
+    assert_eq!(nclim, *count.iter().max().unwrap() as usize);
+    for (j, f) in flux.iter().enumerate() {
+        assert!(bnds[2 * j] < *f && *f < bnds[2 * j + 1]);
+    }
+    let label = |bit: i32| match bit {
+        1 => "ice-free",
+        2 => "polar-caps",
+        4 => "equatorial-belt",
+        8 => "snowball",
+        _ => "other",
+    };
+    let mut caps = 0;
+    for j in 0..flux.len() {
+        for (i, a) in obliquity.iter().enumerate() {
+            let cell = j * obliquity.len() + i;
+            let n = count[cell] as usize;
+            let mut mask = 0;
+            for k in 0..nclim {
+                let at = cell * nclim + k;
+                if k >= n {
+                    assert_eq!(state[at], FILL_I32);
+                    assert_eq!(
+                        (mean[at], north[at], south[at]),
+                        (FILL_F64, FILL_F64, FILL_F64)
+                    );
+                    continue;
+                }
+                assert!(k == 0 || mean[at] <= mean[at - 1], "warmest first");
+                mask |= state[at];
+                let row = csv
+                    .iter()
+                    .find(|r| {
+                        r[0].parse::<f64>().unwrap() == *a
+                            && r[6].parse::<f64>().unwrap() == mean[at]
+                    })
+                    .unwrap_or_else(|| panic!("cell ({j}, {i}) climate {k}: not in map.csv"));
+                assert_eq!(row[3], label(state[at]));
+                assert_eq!(row[4], "true");
+                if state[at] == 2 {
+                    let last: f64 = row[8].split(';').next_back().unwrap().parse().unwrap();
+                    assert_eq!(north[at], last);
+                    assert!((south[at] + last).abs() < 1e-6, "{} vs {last}", south[at]);
+                    caps += 1;
+                }
+            }
+            assert_eq!(mask, regime[cell], "cell ({j}, {i})");
+        }
+    }
+    assert!(caps > 0);
 }
 
 /// A slice of the map equals an independent trace at that obliquity: the

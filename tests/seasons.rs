@@ -400,6 +400,7 @@ fn run_and_periodic_write_their_outputs() {
     }
     let nc = std::fs::read(d3.join("seasonal_cycle.nc")).unwrap();
     assert_eq!(&nc[..4], b"CDF\x02");
+    check_seasonal_nc(&d3.join("seasonal_cycle.nc"), 24, 36);
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(d3.join("summary.json")).unwrap()).unwrap();
     let c = &summary["periodic_climates"][0];
@@ -429,6 +430,72 @@ fn run_and_periodic_write_their_outputs() {
     assert!(csv.starts_with("equilibrium,latitude_deg,day_of_year,temperature_c,ice\n"));
     for dir in [d, d2, d3] {
         let _ = std::fs::remove_dir_all(dir);
+    }
+}
+
+/// seasonal_cycle.nc read back with netcdf3's reader: CF time (a
+/// reference date and calendar, decodable without cftime), latitude with
+/// bounds and area weights, surface temperature agreeing with the CSV.
+fn check_seasonal_nc(path: &Path, bands: usize, steps: usize) {
+    let csv = std::fs::read_to_string(path.with_file_name("seasonal_cycle.csv")).unwrap();
+    let mut r = netcdf3::FileReader::open(path).unwrap();
+    let ds = r.data_set();
+    let text = |v: &str, a: &str| ds.get_var_attr_as_string(v, a).unwrap_or_default();
+    assert_eq!(
+        ds.get_global_attr_as_string("Conventions").unwrap(),
+        "CF-1.8"
+    );
+    assert_eq!(ds.dim_size("latitude"), Some(bands));
+    assert_eq!(ds.dim_size("time"), Some(steps));
+    assert_eq!(text("time", "units"), "days since 2000-03-20 00:00:00");
+    assert_eq!(text("time", "calendar"), "proleptic_gregorian");
+    assert_eq!(text("time", "axis"), "T");
+    assert!(text("time", "comment").contains("equinox"));
+    assert_eq!(text("latitude", "standard_name"), "latitude");
+    assert_eq!(text("latitude", "units"), "degrees_north");
+    assert_eq!(text("latitude", "axis"), "Y");
+    assert_eq!(text("latitude", "bounds"), "latitude_bnds");
+    assert_eq!(
+        ds.get_var("latitude_bnds").unwrap().dim_names(),
+        ["latitude", "nv"]
+    );
+    for v in [
+        "temperature",
+        "annual_mean_temperature",
+        "global_mean_temperature",
+    ] {
+        assert_eq!(text(v, "standard_name"), "surface_temperature", "{v}");
+        assert_eq!(text(v, "units"), "degC", "{v}");
+    }
+    for v in ds.get_var_names() {
+        assert!(!text(&v, "long_name").is_empty(), "{v} has no long_name");
+        assert!(!text(&v, "units").is_empty(), "{v} has no units");
+    }
+    let lat = r.read_var_f64("latitude").unwrap();
+    let bnds = r.read_var_f64("latitude_bnds").unwrap();
+    let w = r.read_var_f64("band_area_fraction").unwrap();
+    let time = r.read_var_f64("time").unwrap();
+    let t = r.read_var_f64("temperature").unwrap();
+    assert_eq!((bnds[0], bnds[2 * bands - 1]), (-90.0, 90.0));
+    for i in 0..bands {
+        assert!(bnds[2 * i] < lat[i] && lat[i] < bnds[2 * i + 1]);
+        // sine spacing: the weight is half the difference of the sines of the edges
+        let exact = 0.5 * (bnds[2 * i + 1].to_radians().sin() - bnds[2 * i].to_radians().sin());
+        assert!((w[i] - exact).abs() < 1e-12);
+    }
+    assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-12);
+    assert_eq!(time[0], 0.0);
+    assert!((time[1] - 365.0 / steps as f64).abs() < 1e-12);
+    // first CSV rows: climate 1, southernmost band, every day in order
+    for (k, line) in csv.lines().skip(1).take(steps).enumerate() {
+        let cells: Vec<f64> = line
+            .split(',')
+            .take(4)
+            .map(|c| c.parse().unwrap())
+            .collect();
+        assert_eq!(cells[1], lat[0]);
+        assert_eq!(cells[2], time[k]);
+        assert_eq!(cells[3], t[k * bands]);
     }
 }
 

@@ -291,7 +291,7 @@ pub fn find_periodic(
 /// the conventions of [`crate::model::climate::hemisphere_ice_edges`]: 90
 /// (-90) with no ice in the hemisphere, 0 when all of it is ice.
 pub fn polar_ice_edges(model: &Model, t: &[f64]) -> (f64, f64) {
-    crate::model::climate::hemisphere_ice_edges(&model.ice_intervals(t), model.grid.symmetric)
+    crate::model::climate::ice_edges_deg(model, t)
 }
 
 /// One periodic climate sampled through the year.

@@ -100,6 +100,20 @@ pub struct MapFold {
     pub to_state: String,
 }
 
+/// One stable climate of a summary cell: the values of the traced point
+/// nearest the cell centre on a stable branch segment spanning it.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CellClimate {
+    /// Its state as a single bit of the regime mask ([`state_bit`]).
+    pub state: u32,
+    /// Global mean temperature, °C.
+    pub global_mean_c: f64,
+    /// The northern hemisphere's most poleward ice edge, deg ([`crate::model::climate::ice_edges_deg`]).
+    pub ice_edge_north_deg: f64,
+    /// The southern hemisphere's most poleward ice edge, deg ([`crate::model::climate::ice_edges_deg`]).
+    pub ice_edge_south_deg: f64,
+}
+
 /// The compact result of one slice.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Slice {
@@ -116,6 +130,9 @@ pub struct Slice {
     pub regime: Vec<u32>,
     /// Per summary cell: number of coexisting stable climates.
     pub stable_count: Vec<u32>,
+    /// Per summary cell: its stable climates, warmest first (as many as
+    /// `stable_count`).
+    pub climates: Vec<Vec<CellClimate>>,
     /// Notes (branches that ended early, seeds not continued).
     pub notes: Vec<String>,
 }
@@ -149,13 +166,15 @@ pub fn regime_label(mask: u32) -> String {
     }
 }
 
-/// Reduces a traced slice to its compact form.
-pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slice {
+/// Reduces a traced slice to its compact form; `model` is the one traced
+/// (the across value set), for the ice edges of the cells' climates.
+pub fn reduce(model: &Model, spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slice {
     let mut points = Vec::new();
     let mut folds = Vec::new();
     let mut notes = h.failures.clone();
     let mut regime = vec![0u32; spec.cells];
     let mut stable_count = vec![0u32; spec.cells];
+    let mut climates: Vec<Vec<CellClimate>> = vec![Vec::new(); spec.cells];
     for b in &h.branches {
         for q in &b.points {
             let d = &q.diagnostics;
@@ -207,9 +226,20 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
                     };
                     regime[c] |= state_bit(q.diagnostics.state);
                     stable_count[c] += 1;
+                    let (north, south) =
+                        crate::model::climate::ice_edges_deg(model, &q.temperature);
+                    climates[c].push(CellClimate {
+                        state: state_bit(q.diagnostics.state),
+                        global_mean_c: q.diagnostics.global_mean_c,
+                        ice_edge_north_deg: north,
+                        ice_edge_south_deg: south,
+                    });
                 }
             }
         }
+    }
+    for cell in &mut climates {
+        cell.sort_by(|a, b| b.global_mean_c.total_cmp(&a.global_mean_c));
     }
     Slice {
         index,
@@ -218,6 +248,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
         folds,
         regime,
         stable_count,
+        climates,
         notes,
     }
 }
@@ -251,7 +282,7 @@ pub fn compute_slice(
         &opts,
         &mut |_| {},
     );
-    reduce(spec, j, a, &h)
+    reduce(&m, spec, j, a, &h)
 }
 
 /// The label of the boundary a fold lies on: `from -> to` for a fold that
@@ -410,4 +441,47 @@ pub fn continue_boundaries(
         }
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::periodic::polar_ice_edges;
+    use crate::io::scenario::Scenario;
+
+    fn model(sets: &[&str]) -> Model {
+        let sets: Vec<String> = sets.iter().map(|s| s.to_string()).collect();
+        Scenario::load(None, &sets).unwrap().model()
+    }
+
+    /// Profile `thr + f(x)` on the band centres x = sin(latitude).
+    fn profile(m: &Model, f: impl Fn(f64) -> f64) -> Vec<f64> {
+        let thr = m.planet.albedo.threshold;
+        m.grid.centres.iter().map(|x| thr + f(*x)).collect()
+    }
+
+    /// Ice-free, snowball, polar caps (ice poleward of about 30 deg: the
+    /// profile crosses the threshold at x = 0.5) and an equatorial belt
+    /// (ice within about 30 deg), on the full and on the symmetric grid.
+    #[test]
+    fn ice_edges_of_the_four_states() {
+        use crate::model::climate::ice_edges_deg as outer_ice_edges;
+        for m in [model(&[]), model(&["grid.symmetric=true"])] {
+            let band = 180.0 / m.grid.len() as f64 + 1.0;
+            let free = profile(&m, |_| 20.0);
+            assert_eq!(outer_ice_edges(&m, &free), (90.0, -90.0));
+            let ball = profile(&m, |_| -50.0);
+            assert_eq!(outer_ice_edges(&m, &ball), (0.0, 0.0));
+            let caps = profile(&m, |x| 5.0 - 20.0 * x * x);
+            let (n, s) = outer_ice_edges(&m, &caps);
+            assert!((n - 30.0).abs() < band && (s + n).abs() < 1e-9, "{n} {s}");
+            if !m.grid.symmetric {
+                // polar caps: the same as the polar ice edges
+                assert_eq!((n, s), polar_ice_edges(&m, &caps));
+            }
+            let belt = profile(&m, |x| -5.0 + 20.0 * x * x);
+            let (n, s) = outer_ice_edges(&m, &belt);
+            assert!((n - 30.0).abs() < band && (s + n).abs() < 1e-9, "{n} {s}");
+        }
+    }
 }

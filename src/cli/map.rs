@@ -6,7 +6,7 @@ use crate::analysis::sweep::{
 };
 use crate::cli::trace::parse_range;
 use crate::io::export::{Cell, OutputSet, Table};
-use crate::io::netcdf::NcFile;
+use crate::io::netcdf::{FILL_F64, FILL_I32, NcFile};
 use crate::io::plot;
 use crate::model::Param;
 use rayon::prelude::*;
@@ -14,7 +14,7 @@ use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
 /// Format tag of shard files.
-const SHARD_FORMAT: &str = "icefold-map-shard-1";
+const SHARD_FORMAT: &str = "icefold-map-shard-2";
 
 /// A shard file: everything a merge needs to render the map.
 #[derive(Serialize, Deserialize)]
@@ -331,44 +331,15 @@ fn render(
     }
     let across_p = Param::from_key(ak).expect("validated key");
     let vary_p = Param::from_key(vk).expect("validated key");
-    let mut nc = NcFile::new();
-    let (adim, vdim) = (sanitize(ak), sanitize(vk));
-    nc.add_dim(&vdim, ny)?;
-    nc.add_dim(&adim, nx)?;
-    let va = nc.add_var_f64(&adim, &[&adim], xs.clone())?;
-    nc.var_attr_text(va, "units", across_p.unit());
-    nc.var_attr_text(va, "long_name", &format!("{ak} (slice parameter)"));
-    let vv = nc.add_var_f64(&vdim, &[&vdim], ys.clone())?;
-    nc.var_attr_text(vv, "units", vary_p.unit());
-    nc.var_attr_text(
-        vv,
-        "long_name",
-        &format!("{vk} (traced parameter, cell centres)"),
-    );
-    let vr = nc.add_var_i32("regime", &[&vdim, &adim], regime.clone())?;
-    nc.var_attr_text(vr, "long_name", "stable climates present (bit mask)");
-    nc.var_attr_i32(
-        vr,
-        "flag_masks",
-        &STATES
-            .iter()
-            .map(|s| state_bit(*s) as i32)
-            .collect::<Vec<_>>(),
-    );
-    nc.var_attr_text(
-        vr,
-        "flag_meanings",
-        "ice_free polar_caps equatorial_belt snowball other",
-    );
-    let vc = nc.add_var_i32("stable_climates", &[&vdim, &adim], count.clone())?;
-    nc.var_attr_text(vc, "long_name", "number of coexisting stable climates");
-    nc.var_attr_text(vc, "units", "1");
-    nc.global_attr_text("Conventions", "CF-1.8");
-    nc.global_attr_text("title", &format!("Regime map: {name}"));
-    nc.global_attr_text("source", &format!("icefold {VERSION}"));
-    nc.global_attr_text("history", &spec.command());
-    nc.global_attr_text("scenario", scenario_toml);
-    out.add(dir.join("map.nc"), nc.to_bytes()?);
+    let nc = map_netcdf(
+        spec,
+        name,
+        scenario_toml,
+        slices,
+        (&xs, &ys),
+        (&regime, &count),
+    )?;
+    out.add_netcdf(dir.join("map.nc"), nc)?;
     // figure
     let mut masks: Vec<u32> = regime.iter().map(|r| *r as u32).collect();
     masks.sort_unstable();
@@ -418,6 +389,178 @@ fn render(
     );
     out.add_text(dir.join("scenario.toml"), scenario_toml);
     Ok(())
+}
+
+/// The CF-1.8 NetCDF content of `map.nc`: the slice and cell axes (the
+/// cells with their bounds), per cell the regime mask and the number of
+/// stable climates, and per cell and climate (warmest first, `_FillValue`
+/// past a cell's count) its state, global mean temperature and ice edges
+/// (most poleward per hemisphere). `xs`, `ys` are the axes, `regime`, `count` the per-cell grids
+/// (index `j * xs.len() + i`).
+fn map_netcdf(
+    spec: &MapSpec,
+    name: &str,
+    scenario_toml: &str,
+    slices: &[Slice],
+    (xs, ys): (&[f64], &[f64]),
+    (regime, count): (&[i32], &[i32]),
+) -> Result<NcFile, CliError> {
+    let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
+    let across_p = Param::from_key(ak).expect("validated key");
+    let vary_p = Param::from_key(vk).expect("validated key");
+    let (nx, ny) = (xs.len(), ys.len());
+    let nclim = slices
+        .iter()
+        .flat_map(|s| s.climates.iter().map(Vec::len))
+        .max()
+        .unwrap_or(0)
+        .max(1);
+    let mut state = vec![FILL_I32; ny * nx * nclim];
+    let mut mean = vec![FILL_F64; ny * nx * nclim];
+    let mut north = vec![FILL_F64; ny * nx * nclim];
+    let mut south = vec![FILL_F64; ny * nx * nclim];
+    for (i, s) in slices.iter().enumerate() {
+        for (j, cell) in s.climates.iter().enumerate().take(ny) {
+            for (k, c) in cell.iter().enumerate() {
+                let at = (j * nx + i) * nclim + k;
+                state[at] = c.state as i32;
+                mean[at] = c.global_mean_c;
+                north[at] = c.ice_edge_north_deg;
+                south[at] = c.ice_edge_south_deg;
+            }
+        }
+    }
+    // cell edges, by the formula of MapSpec::cell_value
+    let edge =
+        |c: usize| spec.vary_from + (spec.vary_to - spec.vary_from) * c as f64 / spec.cells as f64;
+    let bnds: Vec<f64> = (0..ny).flat_map(|c| [edge(c), edge(c + 1)]).collect();
+    let mut nc = NcFile::new();
+    let (adim, vdim) = (sanitize(ak), sanitize(vk));
+    let bdim = format!("{vdim}_bnds");
+    nc.add_dim(&vdim, ny)?;
+    nc.add_dim(&adim, nx)?;
+    nc.add_dim("climate", nclim)?;
+    nc.add_dim("nv", 2)?;
+    let cell3 = [vdim.as_str(), adim.as_str(), "climate"];
+    let cell2 = [vdim.as_str(), adim.as_str()];
+    let v = nc.add_var_f64(&adim, &[&adim], xs.to_vec())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", &format!("{ak} (slice parameter)")),
+            ("units", across_p.unit()),
+            ("axis", "X"),
+        ],
+    );
+    let v = nc.add_var_f64(&vdim, &[&vdim], ys.to_vec())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                &format!("{vk} (traced parameter, cell centres)"),
+            ),
+            ("units", vary_p.unit()),
+            ("axis", "Y"),
+            ("bounds", &bdim),
+        ],
+    );
+    let v = nc.add_var_f64(&bdim, &[&vdim, "nv"], bnds)?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", &format!("{vk} at the edges of each cell")),
+            ("units", vary_p.unit()),
+        ],
+    );
+    let v = nc.add_var_i32("climate", &["climate"], (1..=nclim as i32).collect())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "number of the stable climate within its cell (warmest first)",
+            ),
+            ("units", "1"),
+        ],
+    );
+    let meanings = "ice_free polar_caps equatorial_belt snowball other";
+    let bits: Vec<i32> = STATES.iter().map(|s| state_bit(*s) as i32).collect();
+    let v = nc.add_var_i32("regime", &cell2, regime.to_vec())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "stable climates present (bit mask of their states)",
+            ),
+            ("units", "1"),
+        ],
+    );
+    nc.var_attr_i32(v, "flag_masks", &bits);
+    nc.var_attr_text(v, "flag_meanings", meanings);
+    let v = nc.add_var_i32("stable_climates", &cell2, count.to_vec())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", "number of coexisting stable climates"),
+            ("units", "1"),
+        ],
+    );
+    let v = nc.add_var_i32("state", &cell3, state)?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", "state of each stable climate of the cell"),
+            ("units", "1"),
+        ],
+    );
+    nc.var_attr_i32(v, "_FillValue", &[FILL_I32]);
+    nc.var_attr_i32(v, "flag_values", &bits);
+    nc.var_attr_text(v, "flag_meanings", meanings);
+    let v = nc.add_var_f64("global_mean_temperature", &cell3, mean)?;
+    nc.var_attr_f64(v, "_FillValue", &[FILL_F64]);
+    nc.var_attrs_text(
+        v,
+        &[
+            ("standard_name", "surface_temperature"),
+            (
+                "long_name",
+                "global (area-weighted) mean surface temperature of each stable climate",
+            ),
+            ("units", "degC"),
+            ("cell_methods", "area: mean"),
+        ],
+    );
+    for (var, data, text) in [
+        (
+            "ice_edge_north_deg",
+            north,
+            "most poleward ice edge of the northern hemisphere of each stable climate (90 with no ice there, 0 when all of the hemisphere is ice)",
+        ),
+        (
+            "ice_edge_south_deg",
+            south,
+            "most poleward ice edge of the southern hemisphere of each stable climate (-90 with no ice there, 0 when all of the hemisphere is ice)",
+        ),
+    ] {
+        let v = nc.add_var_f64(var, &cell3, data)?;
+        nc.var_attr_f64(v, "_FillValue", &[FILL_F64]);
+        nc.var_attrs_text(v, &[("long_name", text), ("units", "degrees_north")]);
+    }
+    nc.global_attr_text("Conventions", "CF-1.8");
+    nc.global_attr_text("title", &format!("Regime map: {name}"));
+    nc.global_attr_text("source", &format!("icefold {VERSION}"));
+    nc.global_attr_text("history", &spec.command());
+    nc.global_attr_text(
+        "comment",
+        &format!(
+            "One slice per value of {ak}, traced by continuation in {vk}. The traced range is summarised on {} cells: the stable climates of a cell are the stable branch segments spanning its centre, each with the values of the traced point nearest the centre.",
+            spec.cells
+        ),
+    );
+    nc.global_attr_text("scenario", scenario_toml);
+    Ok(nc)
 }
 
 /// Runs `merge DIR...`: joins shard files into the outputs of a single run.
@@ -491,6 +634,11 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
             if s.index >= shard.spec.count
                 || s.regime.len() != shard.spec.cells
                 || s.stable_count.len() != shard.spec.cells
+                || s.climates.len() != shard.spec.cells
+                || s.climates
+                    .iter()
+                    .zip(&s.stable_count)
+                    .any(|(c, n)| c.len() != *n as usize)
             {
                 return Err(usage(format!(
                     "{}: slice {} does not fit the map",

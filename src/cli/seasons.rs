@@ -347,6 +347,217 @@ fn edge_extremes_json(c: &Cycle) -> serde_json::Value {
     serde_json::json!({"north": side(true), "south": side(false)})
 }
 
+/// The CF-1.8 NetCDF content of `seasonal_cycle.nc`: the periodic
+/// climates over (`time`, `latitude`), `time` decodable as dates (the
+/// idealised model year starts at the northern spring equinox, given the
+/// nominal date 2000-03-20), latitude with its band bounds and area weights.
+/// `fields` holds temperature and ice (equilibrium, time, latitude) and the
+/// annual-mean temperature (equilibrium, latitude), row-major.
+fn periodic_netcdf(
+    sc: &Scenario,
+    args: &Args,
+    model: &Model,
+    days: &[f64],
+    climates: &[Periodic],
+    cycles: &[Cycle],
+    fields: (Vec<f64>, Vec<i32>, Vec<f64>),
+) -> Result<NcFile, CliError> {
+    let (temperature, ice, annual_mean) = fields;
+    let g = &model.grid;
+    let steps = days.len();
+    let mut nc = NcFile::new();
+    nc.add_dim("equilibrium", cycles.len())?;
+    nc.add_dim("time", steps)?;
+    nc.add_dim("latitude", g.len())?;
+    nc.add_dim("nv", 2)?;
+    let v = nc.add_var_f64("time", &["time"], days.to_vec())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("standard_name", "time"),
+            ("long_name", "time of the model year"),
+            ("units", "days since 2000-03-20 00:00:00"),
+            ("calendar", "proleptic_gregorian"),
+            ("axis", "T"),
+            (
+                "comment",
+                "The model year is idealised: 365 days, day 0 at the northern spring equinox. The reference date 2000-03-20 is nominal, chosen only so that time decodes as dates; read time as days since the equinox.",
+            ),
+        ],
+    );
+    let v = nc.add_var_f64("latitude", &["latitude"], g.latitudes_deg())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("standard_name", "latitude"),
+            ("long_name", "latitude of the band centre"),
+            ("units", "degrees_north"),
+            ("axis", "Y"),
+            ("bounds", "latitude_bnds"),
+        ],
+    );
+    let deg = |x: f64| x.clamp(-1.0, 1.0).asin().to_degrees();
+    let bnds: Vec<f64> = (0..g.len())
+        .flat_map(|i| [deg(g.faces[i]), deg(g.faces[i + 1])])
+        .collect();
+    let v = nc.add_var_f64("latitude_bnds", &["latitude", "nv"], bnds)?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", "latitudes of the band edges"),
+            ("units", "degrees_north"),
+        ],
+    );
+    let v = nc.add_var_f64("band_area_fraction", &["latitude"], g.weights.clone())?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "area weight of the band: its fraction of the planet's surface (the weights sum to 1)",
+            ),
+            ("units", "1"),
+        ],
+    );
+    let v = nc.add_var_i32(
+        "equilibrium",
+        &["equilibrium"],
+        (1..=cycles.len() as i32).collect(),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", "periodic climate number (warmest first)"),
+            ("units", "1"),
+        ],
+    );
+    let v = nc.add_var_f64(
+        "temperature",
+        &["equilibrium", "time", "latitude"],
+        temperature,
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("standard_name", "surface_temperature"),
+            ("long_name", "zonal-mean surface temperature"),
+            ("units", "degC"),
+        ],
+    );
+    let v = nc.add_var_i32("ice", &["equilibrium", "time", "latitude"], ice)?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "ice-covered band centre (temperature below albedo.threshold)",
+            ),
+            ("units", "1"),
+        ],
+    );
+    nc.var_attr_i32(v, "flag_values", &[0, 1]);
+    nc.var_attr_text(v, "flag_meanings", "open ice");
+    let v = nc.add_var_f64(
+        "annual_mean_temperature",
+        &["equilibrium", "latitude"],
+        annual_mean,
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("standard_name", "surface_temperature"),
+            ("long_name", "annual-mean zonal-mean surface temperature"),
+            ("units", "degC"),
+            ("cell_methods", "time: mean"),
+        ],
+    );
+    let per_time = |f: &dyn Fn(&Cycle) -> &[f64]| -> Vec<f64> {
+        cycles.iter().flat_map(|c| f(c).iter().copied()).collect()
+    };
+    let v = nc.add_var_f64(
+        "global_mean_temperature",
+        &["equilibrium", "time"],
+        per_time(&|c| &c.global_mean_c),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("standard_name", "surface_temperature"),
+            (
+                "long_name",
+                "global (area-weighted) mean surface temperature",
+            ),
+            ("units", "degC"),
+            ("cell_methods", "area: mean"),
+        ],
+    );
+    let v = nc.add_var_f64(
+        "ice_area_fraction",
+        &["equilibrium", "time"],
+        per_time(&|c| &c.ice_area_fraction),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            ("long_name", "ice-covered fraction of the planet's surface"),
+            ("units", "1"),
+        ],
+    );
+    for (var, north, text) in [
+        (
+            "ice_edge_north_deg",
+            true,
+            "most poleward ice edge of the northern hemisphere (90 with no ice there, 0 when all of the hemisphere is ice)",
+        ),
+        (
+            "ice_edge_south_deg",
+            false,
+            "most poleward ice edge of the southern hemisphere (-90 with no ice there, 0 when all of the hemisphere is ice)",
+        ),
+    ] {
+        let data: Vec<f64> = cycles
+            .iter()
+            .flat_map(|c| {
+                c.ice_edges_deg
+                    .iter()
+                    .map(move |e| if north { e.0 } else { e.1 })
+            })
+            .collect();
+        let v = nc.add_var_f64(var, &["equilibrium", "time"], data)?;
+        nc.var_attrs_text(v, &[("long_name", text), ("units", "degrees_north")]);
+    }
+    let v = nc.add_var_i32(
+        "unstable_modes",
+        &["equilibrium"],
+        climates
+            .iter()
+            .map(|p| p.unstable_modes.min(i32::MAX as usize) as i32)
+            .collect(),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "Floquet multipliers with modulus above one (0 = stable)",
+            ),
+            ("units", "1"),
+        ],
+    );
+    nc.global_attr_text("Conventions", "CF-1.8");
+    nc.global_attr_text("title", &format!("Periodic climates of {}", sc.name()));
+    nc.global_attr_text("scenario", sc.name());
+    nc.global_attr_text("scenario_source", &sc.source);
+    nc.global_attr_text("source", &format!("icefold {}", crate::cli::VERSION));
+    nc.global_attr_text("history", &args.line);
+    nc.global_attr_i32("steps_per_year", &[steps.min(i32::MAX as usize) as i32]);
+    nc.global_attr_text(
+        "comment",
+        "Periodic (seasonally repeating) climates of a zonal-mean energy-balance model, found by shooting; sample k of the year is the state at day 365 k / steps_per_year after the northern spring equinox.",
+    );
+    Ok(nc)
+}
+
 /// `icefold periodic [SCENARIO] [--start FILE]`: the periodic climates of
 /// the seasonal model by shooting from warm and cold starts (and a profile
 /// or state file), each with its Floquet stability. Writes
@@ -494,58 +705,15 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         });
         climates_json.push(climate_json(e + 1, p, c, &d));
     }
-    let mut nc = NcFile::new();
-    nc.add_dim("equilibrium", neq)?;
-    nc.add_dim("time", steps)?;
-    nc.add_dim("lat", n)?;
-    let v = nc.add_var_f64("lat", &["lat"], lat.clone())?;
-    nc.var_attr_text(v, "units", "degrees_north");
-    nc.var_attr_text(v, "long_name", "latitude of the band centre");
-    nc.var_attr_text(v, "standard_name", "latitude");
-    let v = nc.add_var_f64("time", &["time"], days.clone())?;
-    nc.var_attr_text(v, "units", "days");
-    nc.var_attr_text(
-        v,
-        "long_name",
-        "day of the model year (0 = northern spring equinox; 365-day year)",
-    );
-    let v = nc.add_var_i32("equilibrium", &["equilibrium"], (1..=neq as i32).collect())?;
-    nc.var_attr_text(v, "long_name", "periodic climate number (warmest first)");
-    let v = nc.add_var_f64("temperature", &["equilibrium", "time", "lat"], nc_t)?;
-    nc.var_attr_text(v, "units", "degC");
-    nc.var_attr_text(v, "long_name", "zonal-mean surface temperature");
-    let v = nc.add_var_i32("ice", &["equilibrium", "time", "lat"], nc_ice)?;
-    nc.var_attr_text(
-        v,
-        "long_name",
-        "ice-covered band centre (temperature below albedo.threshold)",
-    );
-    nc.var_attr_i32(v, "flag_values", &[0, 1]);
-    nc.var_attr_text(v, "flag_meanings", "open ice");
-    let v = nc.add_var_f64("annual_mean_temperature", &["equilibrium", "lat"], nc_mean)?;
-    nc.var_attr_text(v, "units", "degC");
-    nc.var_attr_text(v, "long_name", "annual-mean zonal-mean surface temperature");
-    let v = nc.add_var_i32(
-        "unstable_modes",
-        &["equilibrium"],
-        search
-            .climates
-            .iter()
-            .map(|p| p.unstable_modes.min(i32::MAX as usize) as i32)
-            .collect(),
+    let nc = periodic_netcdf(
+        &sc,
+        args,
+        &annual_model,
+        &days,
+        &search.climates,
+        &cycles,
+        (nc_t, nc_ice, nc_mean),
     )?;
-    nc.var_attr_text(
-        v,
-        "long_name",
-        "Floquet multipliers with modulus above one (0 = stable)",
-    );
-    nc.global_attr_text("Conventions", "CF-1.8");
-    nc.global_attr_text("title", &format!("Periodic climates of {}", sc.name()));
-    nc.global_attr_text("scenario", sc.name());
-    nc.global_attr_text("scenario_source", &sc.source);
-    nc.global_attr_text("source", &format!("icefold {}", crate::cli::VERSION));
-    nc.global_attr_text("history", &args.line);
-    nc.global_attr_i32("steps_per_year", &[steps.min(i32::MAX as usize) as i32]);
     let mut summary = provenance(&sc, args);
     summary.insert("steps_per_year".into(), steps.into());
     summary.insert("periodic_climates".into(), climates_json.into());
@@ -565,7 +733,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         &curves,
     )?;
     out.add_table(dir.join("seasonal_cycle.csv"), &long)?;
-    out.add(dir.join("seasonal_cycle.nc"), nc.to_bytes()?);
+    out.add_netcdf(dir.join("seasonal_cycle.nc"), nc)?;
     out.add_table(dir.join("annual_mean.csv"), &annual)?;
     out.add_table(dir.join("ice_edges.csv"), &edges)?;
     out.add(dir.join("profiles.svg"), fig.svg);

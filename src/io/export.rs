@@ -1,14 +1,19 @@
 //! Output plumbing: error type, atomic file writes, CSV tables and staged output sets.
 //!
 //! Every output of a run is first computed in memory and staged into an
-//! [`OutputSet`]; only when all computation has succeeded is the set committed,
-//! each file written atomically (temporary file in the same directory, fsync,
-//! rename). A run that fails while computing therefore writes nothing.
+//! [`OutputSet`]; only when all computation has succeeded is the set
+//! committed: every file is written in full into a temporary file beside its
+//! destination (created new, with an unpredictable name) and synced, NetCDF
+//! files written there directly by [`crate::io::netcdf`]; only when all of
+//! them are complete are they renamed into place. A run that fails while
+//! computing, or while writing the temporary files, therefore writes nothing
+//! and leaves no temporary file behind.
 
-use std::fmt::Write as _;
+use crate::io::netcdf::NcFile;
 use std::fs;
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
+use tempfile::NamedTempFile;
 
 /// Errors raised while preparing or writing output files.
 #[derive(Debug, thiserror::Error)]
@@ -60,6 +65,18 @@ pub enum ExportError {
         /// Description of the limit.
         what: String,
     },
+    /// The NetCDF library refused a definition or failed to write it.
+    #[error("NetCDF: {what}")]
+    NetCdf {
+        /// What netcdf3 reported.
+        what: String,
+    },
+    /// The CSV writer failed.
+    #[error("CSV: {what}")]
+    Csv {
+        /// What the csv crate reported.
+        what: String,
+    },
 }
 
 /// Check that every value is finite; otherwise return [`ExportError::NonFinite`] naming `what`.
@@ -82,11 +99,19 @@ fn io_err(path: &Path, source: std::io::Error) -> ExportError {
 
 /// Write `bytes` to `path` atomically.
 ///
-/// The data go to a temporary file `.{file}.tmp-{pid}-{n}` in the same directory,
-/// which is synced and then renamed over `path`; readers see either the old
-/// file or the complete new one. The parent directory is created if missing.
-/// On failure the temporary file is removed.
+/// The data go to a new temporary file `.{file}.XXXXXXXXXXXX.tmp` (random
+/// name) in the same directory, which is synced and then renamed over
+/// `path`; readers see either the old file or the complete new one. The
+/// parent directory is created if missing. On failure the temporary file is
+/// removed.
 pub fn atomic_write(path: &Path, bytes: &[u8]) -> Result<(), ExportError> {
+    let mut set = OutputSet::new();
+    set.add(path, bytes.to_vec());
+    set.commit().map(|_| ())
+}
+
+/// Directory and file name of an output path (`.` when it has no parent).
+fn split_path(path: &Path) -> Result<(PathBuf, &std::ffi::OsStr), ExportError> {
     let file_name = path.file_name().ok_or_else(|| {
         io_err(
             path,
@@ -97,32 +122,27 @@ pub fn atomic_write(path: &Path, bytes: &[u8]) -> Result<(), ExportError> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    fs::create_dir_all(&dir).map_err(|e| io_err(&dir, e))?;
-    let mut tmp_name = std::ffi::OsString::from(".");
-    tmp_name.push(file_name);
-    // The counter keeps concurrent writers in one process apart.
-    static SEQ: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
-    let seq = SEQ.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-    tmp_name.push(format!(".tmp-{}-{}", std::process::id(), seq));
-    let tmp = dir.join(tmp_name);
+    Ok((dir, file_name))
+}
 
-    let result = (|| -> Result<(), ExportError> {
-        let mut f = fs::File::create(&tmp).map_err(|e| io_err(&tmp, e))?;
-        f.write_all(bytes).map_err(|e| io_err(&tmp, e))?;
-        f.sync_all().map_err(|e| io_err(&tmp, e))?;
-        drop(f);
-        fs::rename(&tmp, path).map_err(|e| io_err(path, e))?;
-        Ok(())
-    })();
-    if result.is_err() {
-        let _ = fs::remove_file(&tmp);
-        return result;
+/// A new, empty temporary file beside `path`: same directory (created if
+/// missing), created with create-new semantics under a random name, with
+/// the permissions an ordinary new file gets (0666 less the umask). Dropped
+/// unrenamed, it is removed.
+fn temp_beside(path: &Path) -> Result<NamedTempFile, ExportError> {
+    let (dir, file_name) = split_path(path)?;
+    fs::create_dir_all(&dir).map_err(|e| io_err(&dir, e))?;
+    let mut prefix = std::ffi::OsString::from(".");
+    prefix.push(file_name);
+    prefix.push(".");
+    let mut b = tempfile::Builder::new();
+    b.prefix(&prefix).suffix(".tmp").rand_bytes(12);
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        b.permissions(fs::Permissions::from_mode(0o666));
     }
-    // Best effort: make the rename itself durable.
-    if let Ok(d) = fs::File::open(&dir) {
-        let _ = d.sync_all();
-    }
-    Ok(())
+    b.tempfile_in(&dir).map_err(|e| io_err(&dir, e))
 }
 
 /// One cell of a [`Table`].
@@ -179,21 +199,6 @@ pub struct Table {
     rows: Vec<Vec<Cell>>,
 }
 
-fn csv_text(out: &mut String, s: &str) {
-    if s.contains([',', '"', '\n', '\r']) {
-        out.push('"');
-        for ch in s.chars() {
-            if ch == '"' {
-                out.push('"');
-            }
-            out.push(ch);
-        }
-        out.push('"');
-    } else {
-        out.push_str(s);
-    }
-}
-
 impl Table {
     /// A table with the given column names and no rows.
     pub fn new(columns: &[&str]) -> Self {
@@ -223,7 +228,11 @@ impl Table {
         self.rows.push(cells);
     }
 
-    /// Render as CSV text (header line, then one line per row, `\n` endings).
+    /// Render as CSV text (header line, then one line per row, `\n`
+    /// endings), written by the `csv` crate: text is quoted only where it
+    /// must be (a comma, quote or line break in it), numbers in their
+    /// shortest exact round-trip form (`-0` as `0`), integers as integers,
+    /// booleans as `true` / `false`.
     ///
     /// Errors: [`ExportError::Shape`] if a row's width differs from the
     /// number of columns, [`ExportError::NonFinite`] naming the column (and
@@ -234,14 +243,15 @@ impl Table {
                 what: "table column list".into(),
             });
         }
-        let mut out = String::new();
-        for (k, c) in self.columns.iter().enumerate() {
-            if k > 0 {
-                out.push(',');
-            }
-            csv_text(&mut out, c);
-        }
-        out.push('\n');
+        let csv_err = |e: csv::Error| ExportError::Csv {
+            what: e.to_string(),
+        };
+        let mut w = csv::WriterBuilder::new()
+            .terminator(csv::Terminator::Any(b'\n'))
+            .quote_style(csv::QuoteStyle::Necessary)
+            .from_writer(Vec::new());
+        w.write_record(&self.columns).map_err(csv_err)?;
+        let mut fields: Vec<String> = Vec::with_capacity(self.columns.len());
         for (r, row) in self.rows.iter().enumerate() {
             if row.len() != self.columns.len() {
                 return Err(ExportError::Shape {
@@ -253,11 +263,9 @@ impl Table {
                     ),
                 });
             }
+            fields.clear();
             for (k, cell) in row.iter().enumerate() {
-                if k > 0 {
-                    out.push(',');
-                }
-                match cell {
+                fields.push(match cell {
                     Cell::Num(v) => {
                         if !v.is_finite() {
                             return Err(ExportError::NonFinite {
@@ -266,25 +274,37 @@ impl Table {
                         }
                         // Normalise -0 to 0 for tidiness; `{}` is round-trip exact.
                         let v = if *v == 0.0 { 0.0 } else { *v };
-                        let _ = write!(out, "{}", v);
+                        format!("{v}")
                     }
-                    Cell::Int(i) => {
-                        let _ = write!(out, "{}", i);
-                    }
-                    Cell::Text(s) => csv_text(&mut out, s),
-                    Cell::Bool(b) => out.push_str(if *b { "true" } else { "false" }),
-                }
+                    Cell::Int(i) => i.to_string(),
+                    Cell::Text(s) => s.clone(),
+                    Cell::Bool(b) => b.to_string(),
+                });
             }
-            out.push('\n');
+            w.write_record(&fields).map_err(csv_err)?;
         }
-        Ok(out)
+        let bytes = w.into_inner().map_err(|e| ExportError::Csv {
+            what: e.error().to_string(),
+        })?;
+        String::from_utf8(bytes).map_err(|e| ExportError::Csv {
+            what: e.to_string(),
+        })
     }
+}
+
+/// What a staged file holds.
+#[derive(Debug)]
+enum Content {
+    /// Bytes computed in memory.
+    Bytes(Vec<u8>),
+    /// A NetCDF file, written by netcdf3 into the temporary file at commit.
+    NetCdf(Box<NcFile>),
 }
 
 /// A set of output files staged in memory and written together by [`OutputSet::commit`].
 #[derive(Debug, Default)]
 pub struct OutputSet {
-    files: Vec<(PathBuf, Vec<u8>)>,
+    files: Vec<(PathBuf, Content)>,
 }
 
 impl OutputSet {
@@ -293,14 +313,17 @@ impl OutputSet {
         Self::default()
     }
 
+    fn stage(&mut self, path: PathBuf, content: Content) {
+        if let Some(slot) = self.files.iter_mut().find(|(p, _)| *p == path) {
+            slot.1 = content;
+        } else {
+            self.files.push((path, content));
+        }
+    }
+
     /// Stage `bytes` for `path`. Staging the same path again replaces the earlier content.
     pub fn add(&mut self, path: impl Into<PathBuf>, bytes: Vec<u8>) {
-        let path = path.into();
-        if let Some(slot) = self.files.iter_mut().find(|(p, _)| *p == path) {
-            slot.1 = bytes;
-        } else {
-            self.files.push((path, bytes));
-        }
+        self.stage(path.into(), Content::Bytes(bytes));
     }
 
     /// Stage UTF-8 text for `path`.
@@ -319,6 +342,16 @@ impl OutputSet {
         Ok(())
     }
 
+    /// Stage a NetCDF file. It is checked now ([`NcFile::check`]: fails,
+    /// staging nothing, on a non-finite value or a definition netcdf3
+    /// refuses) and written by netcdf3 straight into its temporary file
+    /// when the set is committed.
+    pub fn add_netcdf(&mut self, path: impl Into<PathBuf>, nc: NcFile) -> Result<(), ExportError> {
+        nc.check()?;
+        self.stage(path.into(), Content::NetCdf(Box::new(nc)));
+        Ok(())
+    }
+
     /// Paths staged so far, in staging order.
     pub fn paths(&self) -> Vec<PathBuf> {
         self.files.iter().map(|(p, _)| p.clone()).collect()
@@ -334,15 +367,54 @@ impl OutputSet {
         self.files.is_empty()
     }
 
-    /// Write every staged file with [`atomic_write`], in staging order.
+    /// Write every staged file, all or nothing as far as the file system allows.
     ///
-    /// Returns the written paths. Stops at the first failure; files written
-    /// before it stay (each one complete).
+    /// First each file is written in full into a new temporary file in its
+    /// destination directory (see [`atomic_write`]; NetCDF files by netcdf3
+    /// directly) and synced; if any of that fails, every temporary file is
+    /// removed and no destination is touched. Then the temporary files are
+    /// renamed into place in staging order. Only a failing rename (rare: e.g.
+    /// the destination is a directory) can leave the set half committed: the
+    /// files renamed before it stay (each one complete), the temporary files
+    /// after it are removed.
+    ///
+    /// Returns the written paths, in staging order.
     pub fn commit(self) -> Result<Vec<PathBuf>, ExportError> {
-        let mut written = Vec::with_capacity(self.files.len());
-        for (path, bytes) in self.files {
-            atomic_write(&path, &bytes)?;
+        let mut ready: Vec<(NamedTempFile, PathBuf)> = Vec::with_capacity(self.files.len());
+        // Any early return drops `ready`, which removes its temporary files.
+        for (path, content) in self.files {
+            let mut tmp = temp_beside(&path)?;
+            let tmp_path = tmp.path().to_path_buf();
+            match &content {
+                Content::Bytes(b) => tmp.write_all(b).map_err(|e| io_err(&tmp_path, e))?,
+                Content::NetCdf(nc) => nc.write_file(tmp.as_file()).map_err(|e| match e {
+                    ExportError::NetCdf { what } => ExportError::NetCdf {
+                        what: format!("{}: {what}", path.display()),
+                    },
+                    other => other,
+                })?,
+            }
+            tmp.as_file().sync_all().map_err(|e| io_err(&tmp_path, e))?;
+            ready.push((tmp, path));
+        }
+        let mut written = Vec::with_capacity(ready.len());
+        let mut dirs: Vec<PathBuf> = Vec::new();
+        for (tmp, path) in ready {
+            // On failure the PersistError (holding the file) and the
+            // temporary files not yet renamed are dropped, which removes them.
+            tmp.persist(&path).map_err(|e| io_err(&path, e.error))?;
+            if let Ok((dir, _)) = split_path(&path)
+                && !dirs.contains(&dir)
+            {
+                dirs.push(dir);
+            }
             written.push(path);
+        }
+        // Best effort: make the renames themselves durable.
+        for dir in dirs {
+            if let Ok(d) = fs::File::open(&dir) {
+                let _ = d.sync_all();
+            }
         }
         Ok(written)
     }
@@ -352,8 +424,10 @@ impl OutputSet {
 mod tests {
     use super::*;
 
+    /// A fresh directory beside the test binary (in the build directory).
     fn scratch(name: &str) -> PathBuf {
-        let d = std::env::temp_dir().join(format!(
+        let exe = std::env::current_exe().unwrap();
+        let d = exe.parent().unwrap().join(format!(
             "icefold-export-test-{}-{}",
             name,
             std::process::id()
@@ -460,6 +534,75 @@ mod tests {
         assert_eq!(written.len(), 2);
         assert_eq!(fs::read(dir.join("a.bin")).unwrap(), vec![1, 2, 3]);
         assert_eq!(fs::read_to_string(dir.join("b.txt")).unwrap(), "hello");
+        fs::remove_dir_all(&dir).unwrap();
+    }
+
+    fn names(dir: &Path) -> Vec<String> {
+        let mut v: Vec<String> = fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().into_string().unwrap())
+            .collect();
+        v.sort();
+        v
+    }
+
+    /// A NetCDF file staged in a set is written by netcdf3 into the set's
+    /// temporary file and renamed with the rest; netcdf3's reader reads it back.
+    #[test]
+    fn output_set_writes_netcdf_with_the_rest() {
+        let dir = scratch("outset-nc");
+        let mut nc = NcFile::new();
+        nc.add_dim("n", 2).unwrap();
+        let v = nc.add_var_f64("x", &["n"], vec![1.5, -2.0]).unwrap();
+        nc.var_attr_text(v, "units", "1");
+        let mut set = OutputSet::new();
+        set.add_text(dir.join("a.txt"), "a");
+        set.add_netcdf(dir.join("x.nc"), nc.clone()).unwrap();
+        let mut bad = NcFile::new();
+        bad.add_dim("n", 1).unwrap();
+        bad.add_var_f64("y", &["n"], vec![f64::NAN]).unwrap();
+        assert!(matches!(
+            set.add_netcdf(dir.join("y.nc"), bad),
+            Err(ExportError::NonFinite { .. })
+        ));
+        assert!(!dir.exists(), "staging must not touch the disk");
+        let written = set.commit().unwrap();
+        assert_eq!(written, vec![dir.join("a.txt"), dir.join("x.nc")]);
+        assert_eq!(names(&dir), vec!["a.txt", "x.nc"]);
+        assert_eq!(fs::read(dir.join("x.nc")).unwrap(), nc.to_bytes().unwrap());
+        let mut r = netcdf3::FileReader::open(dir.join("x.nc")).unwrap();
+        assert_eq!(r.read_var_f64("x").unwrap(), vec![1.5, -2.0]);
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            let mode = fs::metadata(dir.join("x.nc")).unwrap().permissions().mode();
+            assert_eq!(mode & 0o600, 0o600);
+            // like a file from File::create: readable by others unless the umask forbids
+            let plain = dir.join("plain");
+            fs::File::create(&plain).unwrap();
+            let want = fs::metadata(&plain).unwrap().permissions().mode() & 0o777;
+            assert_eq!(mode & 0o777, want);
+        }
+        fs::remove_dir_all(&dir).unwrap();
+    }
+
+    /// A failure while writing the temporary files writes nothing: the
+    /// files staged before the failing one are not renamed into place and
+    /// no temporary file stays behind.
+    #[test]
+    fn output_set_failure_writes_nothing() {
+        let dir = scratch("outset-fail");
+        fs::create_dir_all(&dir).unwrap();
+        fs::write(dir.join("blocker"), b"a file, not a directory").unwrap();
+        let mut nc = NcFile::new();
+        nc.add_dim("n", 1).unwrap();
+        nc.add_var_i32("k", &["n"], vec![7]).unwrap();
+        let mut set = OutputSet::new();
+        set.add_text(dir.join("first.txt"), "1");
+        set.add_netcdf(dir.join("second.nc"), nc).unwrap();
+        set.add_text(dir.join("blocker").join("third.txt"), "3");
+        assert!(matches!(set.commit(), Err(ExportError::Io { .. })));
+        assert_eq!(names(&dir), vec!["blocker"]);
         fs::remove_dir_all(&dir).unwrap();
     }
 }

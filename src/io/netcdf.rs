@@ -1,25 +1,35 @@
-//! A small pure-Rust writer for NetCDF-3 files in the classic "64-bit offset"
-//! variant (CDF-2, version byte 2), built entirely in memory.
+//! A small builder for CF NetCDF-3 files, written by the [`netcdf3`] crate.
+//!
+//! [`NcFile`] collects dimensions, attributes and variables (with their
+//! data) as plain values, checks them as they are added, and hands them to
+//! [`netcdf3::FileWriter`] in the "64-bit offset" format (CDF-2) when written:
+//! into an open file ([`NcFile::write_file`], used by
+//! [`crate::io::export::OutputSet`] to write straight into its temporary
+//! file) or into memory ([`NcFile::to_bytes`]).
 //!
 //! Supported: fixed-size dimensions (no record dimension), global and
 //! per-variable attributes of type text (`NC_CHAR`), 32-bit integer
 //! (`NC_INT`) and double (`NC_DOUBLE`), and variables of type `NC_INT` and
-//! `NC_DOUBLE`. All multi-byte values are big-endian as the format requires.
+//! `NC_DOUBLE` (row-major data, last dimension fastest).
 //!
-//! Non-finite doubles are never written: [`NcFile::to_bytes`] fails with
-//! [`ExportError::NonFinite`] naming the variable or attribute. Callers who
-//! need missing values must choose an explicit `_FillValue`.
+//! Non-finite doubles are never written: [`NcFile::check`] (and every write)
+//! fails with [`ExportError::NonFinite`] naming the variable or attribute.
+//! Callers who need missing values write an explicit `_FillValue`
+//! ([`FILL_F64`], [`FILL_I32`]).
 
 use crate::io::export::ExportError;
+use netcdf3::{DataSet, FileWriter, Version};
+use std::cell::RefCell;
+use std::io::{Seek, SeekFrom, Write};
+use std::rc::Rc;
 
-const NC_DIMENSION: u32 = 0x0A;
-const NC_VARIABLE: u32 = 0x0B;
-const NC_ATTRIBUTE: u32 = 0x0C;
-const NC_CHAR: u32 = 2;
-const NC_INT: u32 = 4;
-const NC_DOUBLE: u32 = 6;
 /// Longest accepted name, in bytes (NetCDF's `NC_MAX_NAME`).
 const MAX_NAME: usize = 256;
+
+/// The NetCDF default fill value of doubles (`NC_FILL_DOUBLE`), used as `_FillValue`.
+pub const FILL_F64: f64 = netcdf3::NC_FILL_F64;
+/// The NetCDF default fill value of 32-bit integers (`NC_FILL_INT`), used as `_FillValue`.
+pub const FILL_I32: i32 = netcdf3::NC_FILL_I32;
 
 /// Handle of a variable inside an [`NcFile`], returned by the `add_var_*` methods.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -32,7 +42,7 @@ impl VarId {
     }
 }
 
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq)]
 enum AttrValue {
     Text(String),
     F64(Vec<f64>),
@@ -64,31 +74,28 @@ impl VarData {
             VarData::I32(_) => 4,
         }
     }
-    fn nc_type(&self) -> u32 {
-        match self {
-            VarData::F64(_) => NC_DOUBLE,
-            VarData::I32(_) => NC_INT,
-        }
-    }
 }
 
 #[derive(Debug, Clone)]
 struct Var {
     name: String,
-    dim_ids: Vec<usize>,
+    dims: Vec<String>,
     attrs: Vec<Attr>,
     data: VarData,
 }
 
-/// An in-memory NetCDF-3 (CDF-2) file under construction.
+/// A NetCDF-3 (CDF-2) file under construction.
 ///
 /// Dimensions and variables are checked as they are added; attribute names
-/// and values (including non-finite doubles) are checked by [`NcFile::to_bytes`].
+/// and values (including non-finite doubles) and variable data are checked
+/// by [`NcFile::check`], which every write calls first.
 #[derive(Debug, Clone, Default)]
 pub struct NcFile {
     dims: Vec<(String, usize)>,
     global_attrs: Vec<Attr>,
     vars: Vec<Var>,
+    /// Attributes set on a [`VarId`] that this file never handed out.
+    orphan_attrs: Vec<String>,
 }
 
 /// Check that `name` is an acceptable NetCDF name.
@@ -132,78 +139,55 @@ fn too_large(what: String) -> ExportError {
     ExportError::TooLarge { what }
 }
 
-fn to_u32(n: usize, what: &str) -> Result<u32, ExportError> {
-    u32::try_from(n)
-        .ok()
-        .filter(|&v| v <= i32::MAX as u32)
-        .ok_or_else(|| too_large(format!("{what} = {n} exceeds the NetCDF-3 limit")))
+fn netcdf_err(what: impl std::fmt::Display) -> ExportError {
+    ExportError::NetCdf {
+        what: what.to_string(),
+    }
 }
 
-fn pad4(n: usize) -> usize {
-    n.div_ceil(4) * 4
+/// netcdf3's write errors have no `Display`; an I/O error keeps only its kind.
+fn write_err(e: netcdf3::WriteError) -> ExportError {
+    match e {
+        netcdf3::WriteError::IOErrorKind(kind) => netcdf_err(format!("write failed: {kind}")),
+        other => netcdf_err(format!("{other:?}")),
+    }
 }
 
-struct Writer {
-    buf: Vec<u8>,
-}
-
-impl Writer {
-    fn u32(&mut self, v: u32) {
-        self.buf.extend_from_slice(&v.to_be_bytes());
-    }
-    fn u64(&mut self, v: u64) {
-        self.buf.extend_from_slice(&v.to_be_bytes());
-    }
-    fn pad(&mut self) {
-        while !self.buf.len().is_multiple_of(4) {
-            self.buf.push(0);
-        }
-    }
-    fn name(&mut self, s: &str) -> Result<(), ExportError> {
-        self.u32(to_u32(s.len(), "name length")?);
-        self.buf.extend_from_slice(s.as_bytes());
-        self.pad();
-        Ok(())
-    }
-    fn attrs(&mut self, owner: &str, attrs: &[Attr]) -> Result<(), ExportError> {
-        if attrs.is_empty() {
-            self.u32(0);
-            self.u32(0);
-            return Ok(());
-        }
-        self.u32(NC_ATTRIBUTE);
-        self.u32(to_u32(attrs.len(), "attribute count")?);
-        for a in attrs {
-            self.name(&a.name)?;
-            match &a.value {
-                AttrValue::Text(s) => {
-                    self.u32(NC_CHAR);
-                    self.u32(to_u32(s.len(), "text attribute length")?);
-                    self.buf.extend_from_slice(s.as_bytes());
-                }
-                AttrValue::I32(v) => {
-                    self.u32(NC_INT);
-                    self.u32(to_u32(v.len(), "attribute length")?);
-                    for x in v {
-                        self.buf.extend_from_slice(&x.to_be_bytes());
-                    }
-                }
-                AttrValue::F64(v) => {
-                    if v.iter().any(|x| !x.is_finite()) {
-                        return Err(ExportError::NonFinite {
-                            what: format!("NetCDF attribute {}:{}", owner, a.name),
-                        });
-                    }
-                    self.u32(NC_DOUBLE);
-                    self.u32(to_u32(v.len(), "attribute length")?);
-                    for x in v {
-                        self.buf.extend_from_slice(&x.to_be_bytes());
-                    }
-                }
+fn check_attrs(owner: &str, attrs: &[Attr]) -> Result<(), ExportError> {
+    for a in attrs {
+        validate_name(&a.name)?;
+        match &a.value {
+            AttrValue::F64(v) if v.iter().any(|x| !x.is_finite()) => {
+                return Err(ExportError::NonFinite {
+                    what: format!("NetCDF attribute {owner}:{}", a.name),
+                });
             }
-            self.pad();
+            AttrValue::Text(s) if s.len() > i32::MAX as usize => {
+                return Err(too_large(format!("attribute {owner}:{}", a.name)));
+            }
+            _ => {}
         }
-        Ok(())
+    }
+    Ok(())
+}
+
+/// A cloneable handle on one writer, so that the writer can be taken back
+/// (flushed, synced, its errors seen) after [`FileWriter::close`] consumed
+/// the boxed stream it was given.
+struct Shared<W>(Rc<RefCell<W>>);
+
+impl<W: Write> Write for Shared<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        self.0.borrow_mut().write(buf)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.0.borrow_mut().flush()
+    }
+}
+
+impl<W: Seek> Seek for Shared<W> {
+    fn seek(&mut self, pos: SeekFrom) -> std::io::Result<u64> {
+        self.0.borrow_mut().seek(pos)
     }
 }
 
@@ -216,7 +200,7 @@ impl NcFile {
     /// Define a fixed-size dimension and return its id (definition order).
     ///
     /// Errors: invalid or duplicate name, zero length (length 0 denotes the
-    /// record dimension in NetCDF-3, which this writer does not support), or
+    /// record dimension in NetCDF-3, which this builder does not support), or
     /// a length beyond the format limit.
     pub fn add_dim(&mut self, name: &str, len: usize) -> Result<usize, ExportError> {
         validate_name(name)?;
@@ -231,9 +215,18 @@ impl NcFile {
                 what: format!("dimension {name}"),
             });
         }
-        to_u32(len, &format!("length of dimension {name}"))?;
+        if len > i32::MAX as usize {
+            return Err(too_large(format!(
+                "length of dimension {name} = {len} exceeds the NetCDF-3 limit"
+            )));
+        }
         self.dims.push((name.to_string(), len));
         Ok(self.dims.len() - 1)
+    }
+
+    /// Length of a defined dimension.
+    pub fn dim_len(&self, name: &str) -> Option<usize> {
+        self.dims.iter().find(|(n, _)| n == name).map(|(_, l)| *l)
     }
 
     /// Set a global text attribute (replacing one of the same name).
@@ -271,20 +264,19 @@ impl NcFile {
                 why: "variable already defined".into(),
             });
         }
-        let mut dim_ids = Vec::with_capacity(dims.len());
         let mut count: usize = 1;
-        for d in dims {
-            let id =
-                self.dims
-                    .iter()
-                    .position(|(n, _)| n == d)
-                    .ok_or_else(|| ExportError::Shape {
-                        what: format!("variable {name} uses undefined dimension {d}"),
-                    })?;
+        for (k, d) in dims.iter().enumerate() {
+            if dims[..k].contains(d) {
+                return Err(ExportError::Shape {
+                    what: format!("variable {name} uses dimension {d} twice"),
+                });
+            }
+            let len = self.dim_len(d).ok_or_else(|| ExportError::Shape {
+                what: format!("variable {name} uses undefined dimension {d}"),
+            })?;
             count = count
-                .checked_mul(self.dims[id].1)
+                .checked_mul(len)
                 .ok_or_else(|| too_large(format!("size of variable {name}")))?;
-            dim_ids.push(id);
         }
         if data.len() != count {
             return Err(ExportError::Shape {
@@ -305,7 +297,7 @@ impl NcFile {
         }
         self.vars.push(Var {
             name: name.to_string(),
-            dim_ids,
+            dims: dims.iter().map(|d| d.to_string()).collect(),
             attrs: Vec::new(),
             data,
         });
@@ -315,9 +307,9 @@ impl NcFile {
     /// Define a double variable over the named dimensions (row-major data,
     /// last dimension fastest). `dims` may be empty for a scalar (one value).
     ///
-    /// Errors: invalid/duplicate name, unknown dimension, or `data.len()` not
-    /// equal to the product of the dimension lengths. Non-finite values are
-    /// reported by [`NcFile::to_bytes`].
+    /// Errors: invalid/duplicate name, unknown or repeated dimension, or
+    /// `data.len()` not equal to the product of the dimension lengths.
+    /// Non-finite values are reported by [`NcFile::check`].
     pub fn add_var_f64(
         &mut self,
         name: &str,
@@ -338,20 +330,24 @@ impl NcFile {
     }
 
     fn var_attr(&mut self, var: VarId, name: &str, value: AttrValue) {
-        // An unknown VarId cannot come from this file's add_var_*; remember it
-        // as an attribute on no variable so to_bytes can report it.
         match self.vars.get_mut(var.0) {
             Some(v) => set_attr(&mut v.attrs, name, value),
-            None => self.global_attrs.push(Attr {
-                name: format!("\u{0}unknown variable {}:{}", var.0, name),
-                value,
-            }),
+            // An unknown VarId cannot come from this file's add_var_*;
+            // remember it so check() can report it.
+            None => self.orphan_attrs.push(format!("{}:{}", var.0, name)),
         }
     }
 
     /// Set a text attribute on a variable (e.g. `units`, `long_name`).
     pub fn var_attr_text(&mut self, var: VarId, name: &str, value: &str) {
         self.var_attr(var, name, AttrValue::Text(value.to_string()));
+    }
+
+    /// Set several text attributes on a variable, in order.
+    pub fn var_attrs_text(&mut self, var: VarId, attrs: &[(&str, &str)]) {
+        for (name, value) in attrs {
+            self.var_attr_text(var, name, value);
+        }
     }
 
     /// Set a double attribute on a variable (e.g. `valid_range`, `_FillValue`).
@@ -364,26 +360,24 @@ impl NcFile {
         self.var_attr(var, name, AttrValue::I32(values.to_vec()));
     }
 
-    /// Serialise to the bytes of a CDF-2 file.
+    /// Check everything that adding did not: attribute names and values,
+    /// non-finite doubles in variables, attributes set on unknown variables,
+    /// and that [`netcdf3`] accepts the definition.
     ///
-    /// Errors: [`ExportError::NonFinite`] naming the variable or attribute if
-    /// any double is NaN or infinite; [`ExportError::InvalidName`] for a bad
-    /// attribute name or an attribute attached to an unknown variable;
-    /// [`ExportError::TooLarge`] if a format limit would be exceeded.
-    pub fn to_bytes(&self) -> Result<Vec<u8>, ExportError> {
-        for a in &self.global_attrs {
-            if a.name.starts_with('\u{0}') {
-                return Err(ExportError::InvalidName {
-                    name: a.name.trim_start_matches('\u{0}').to_string(),
-                    why: "attribute set on a variable id not defined in this file".into(),
-                });
-            }
-            validate_name(&a.name)?;
+    /// Errors: [`ExportError::NonFinite`] naming the variable or attribute;
+    /// [`ExportError::InvalidName`] for a bad attribute name or an attribute
+    /// on an unknown variable; [`ExportError::NetCdf`] if netcdf3 refuses the
+    /// definition.
+    pub fn check(&self) -> Result<(), ExportError> {
+        if let Some(a) = self.orphan_attrs.first() {
+            return Err(ExportError::InvalidName {
+                name: a.clone(),
+                why: "attribute set on a variable id not defined in this file".into(),
+            });
         }
+        check_attrs("global", &self.global_attrs)?;
         for v in &self.vars {
-            for a in &v.attrs {
-                validate_name(&a.name)?;
-            }
+            check_attrs(&v.name, &v.attrs)?;
             if let VarData::F64(d) = &v.data
                 && d.iter().any(|x| !x.is_finite())
             {
@@ -392,227 +386,92 @@ impl NcFile {
                 });
             }
         }
+        self.data_set().map(|_| ())
+    }
 
-        let mut w = Writer { buf: Vec::new() };
-        w.buf.extend_from_slice(b"CDF\x02");
-        w.u32(0); // numrecs: no record dimension
-        if self.dims.is_empty() {
-            w.u32(0);
-            w.u32(0);
-        } else {
-            w.u32(NC_DIMENSION);
-            w.u32(to_u32(self.dims.len(), "dimension count")?);
-            for (name, len) in &self.dims {
-                w.name(name)?;
-                w.u32(to_u32(*len, "dimension length")?);
-            }
+    /// The netcdf3 definition (dimensions, variables, attributes; no data).
+    fn data_set(&self) -> Result<DataSet, ExportError> {
+        let mut ds = DataSet::new();
+        for (name, len) in &self.dims {
+            ds.add_fixed_dim(name, *len).map_err(netcdf_err)?;
         }
-        w.attrs("global", &self.global_attrs)?;
-
-        // Variable list; `begin` offsets are patched once the header size is known.
-        let mut begin_slots = Vec::with_capacity(self.vars.len());
-        if self.vars.is_empty() {
-            w.u32(0);
-            w.u32(0);
-        } else {
-            w.u32(NC_VARIABLE);
-            w.u32(to_u32(self.vars.len(), "variable count")?);
-            for v in &self.vars {
-                w.name(&v.name)?;
-                w.u32(to_u32(v.dim_ids.len(), "variable rank")?);
-                for &d in &v.dim_ids {
-                    w.u32(to_u32(d, "dimension id")?);
+        for a in &self.global_attrs {
+            match &a.value {
+                AttrValue::Text(s) => ds.add_global_attr_string(&a.name, s),
+                AttrValue::F64(v) => ds.add_global_attr_f64(&a.name, v.clone()),
+                AttrValue::I32(v) => ds.add_global_attr_i32(&a.name, v.clone()),
+            }
+            .map_err(netcdf_err)?;
+        }
+        for v in &self.vars {
+            match v.data {
+                VarData::F64(_) => ds.add_var_f64(&v.name, &v.dims),
+                VarData::I32(_) => ds.add_var_i32(&v.name, &v.dims),
+            }
+            .map_err(netcdf_err)?;
+            for a in &v.attrs {
+                match &a.value {
+                    AttrValue::Text(s) => ds.add_var_attr_string(&v.name, &a.name, s),
+                    AttrValue::F64(x) => ds.add_var_attr_f64(&v.name, &a.name, x.clone()),
+                    AttrValue::I32(x) => ds.add_var_attr_i32(&v.name, &a.name, x.clone()),
                 }
-                w.attrs(&v.name, &v.attrs)?;
-                w.u32(v.data.nc_type());
-                let vsize = pad4(v.data.len() * v.data.elem_size());
-                w.u32(u32::try_from(vsize).map_err(|_| {
-                    too_large(format!("variable {} exceeds the 4 GiB limit", v.name))
-                })?);
-                begin_slots.push(w.buf.len());
-                w.u64(0);
+                .map_err(netcdf_err)?;
             }
         }
+        Ok(ds)
+    }
 
-        let mut offset = w.buf.len();
-        for (v, slot) in self.vars.iter().zip(&begin_slots) {
-            w.buf[*slot..*slot + 8].copy_from_slice(&(offset as u64).to_be_bytes());
-            offset += pad4(v.data.len() * v.data.elem_size());
-        }
-        w.buf.reserve(offset - w.buf.len());
+    /// Checks the file ([`NcFile::check`]) and has netcdf3 write it to
+    /// `out` (from its start), then returns `out`.
+    fn write_into<W: Write + Seek + 'static>(&self, out: W) -> Result<W, ExportError> {
+        self.check()?;
+        let ds = self.data_set()?;
+        let shared = Rc::new(RefCell::new(out));
+        let mut w = FileWriter::open_seek_write("", Box::new(Shared(Rc::clone(&shared))))
+            .map_err(write_err)?;
+        w.set_def(&ds, Version::Offset64Bit, 0).map_err(write_err)?;
         for v in &self.vars {
             match &v.data {
-                VarData::F64(d) => {
-                    for x in d {
-                        w.buf.extend_from_slice(&x.to_be_bytes());
-                    }
-                }
-                VarData::I32(d) => {
-                    for x in d {
-                        w.buf.extend_from_slice(&x.to_be_bytes());
-                    }
-                }
+                VarData::F64(d) => w.write_var_f64(&v.name, d),
+                VarData::I32(d) => w.write_var_i32(&v.name, d),
             }
-            w.pad();
+            .map_err(write_err)?;
         }
-        debug_assert_eq!(w.buf.len(), offset);
-        Ok(w.buf)
+        w.close().map_err(write_err)?;
+        let out = Rc::try_unwrap(shared)
+            .map_err(|_| netcdf_err("the NetCDF writer kept its output stream"))?
+            .into_inner();
+        Ok(out)
+    }
+
+    /// Writes the file into `file` (from its start, through a buffer) with
+    /// netcdf3 and flushes it; the caller syncs and renames the file.
+    ///
+    /// Errors: those of [`NcFile::check`]; [`ExportError::NetCdf`] for a
+    /// write error reported by netcdf3; [`std::io::Error`] from the final flush.
+    pub fn write_file(&self, file: &std::fs::File) -> Result<(), ExportError> {
+        let handle = file.try_clone().map_err(netcdf_err)?;
+        let buffered = self.write_into(std::io::BufWriter::new(handle))?;
+        buffered
+            .into_inner()
+            .map_err(|e| netcdf_err(e.into_error()))?;
+        Ok(())
+    }
+
+    /// The bytes of the CDF-2 file, written by netcdf3 into memory.
+    ///
+    /// Errors: as [`NcFile::write_file`].
+    pub fn to_bytes(&self) -> Result<Vec<u8>, ExportError> {
+        Ok(self
+            .write_into(std::io::Cursor::new(Vec::new()))?
+            .into_inner())
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    // ---- a minimal independent CDF-1/CDF-2 reader, for round-trip checks ----
-
-    #[derive(Debug, PartialEq)]
-    enum Val {
-        Text(String),
-        Int(Vec<i32>),
-        Dbl(Vec<f64>),
-    }
-
-    #[derive(Debug)]
-    struct RVar {
-        name: String,
-        dims: Vec<usize>,
-        attrs: Vec<(String, Val)>,
-        data: Val,
-    }
-
-    struct Reader<'a> {
-        b: &'a [u8],
-        p: usize,
-        version: u8,
-    }
-
-    impl Reader<'_> {
-        fn u32(&mut self) -> u32 {
-            let v = u32::from_be_bytes(self.b[self.p..self.p + 4].try_into().unwrap());
-            self.p += 4;
-            v
-        }
-        fn off(&mut self) -> usize {
-            if self.version == 2 {
-                let v = u64::from_be_bytes(self.b[self.p..self.p + 8].try_into().unwrap());
-                self.p += 8;
-                v as usize
-            } else {
-                self.u32() as usize
-            }
-        }
-        fn name(&mut self) -> String {
-            let n = self.u32() as usize;
-            let s = String::from_utf8(self.b[self.p..self.p + n].to_vec()).unwrap();
-            self.p += n.div_ceil(4) * 4;
-            s
-        }
-        fn values(&mut self, ty: u32, n: usize, at: Option<usize>) -> Val {
-            let mut p = at.unwrap_or(self.p);
-            let start = p;
-            let v = match ty {
-                2 => {
-                    let s = String::from_utf8(self.b[p..p + n].to_vec()).unwrap();
-                    p += n;
-                    Val::Text(s)
-                }
-                4 => Val::Int(
-                    (0..n)
-                        .map(|_| {
-                            let x = i32::from_be_bytes(self.b[p..p + 4].try_into().unwrap());
-                            p += 4;
-                            x
-                        })
-                        .collect(),
-                ),
-                6 => Val::Dbl(
-                    (0..n)
-                        .map(|_| {
-                            let x = f64::from_be_bytes(self.b[p..p + 8].try_into().unwrap());
-                            p += 8;
-                            x
-                        })
-                        .collect(),
-                ),
-                t => panic!("unexpected type {t}"),
-            };
-            if at.is_none() {
-                // padding must be zero bytes
-                let end = start + (p - start).div_ceil(4) * 4;
-                assert!(self.b[p..end].iter().all(|&z| z == 0));
-                self.p = end;
-            }
-            v
-        }
-        fn attrs(&mut self) -> Vec<(String, Val)> {
-            let tag = self.u32();
-            let n = self.u32() as usize;
-            if tag == 0 {
-                assert_eq!(n, 0);
-                return vec![];
-            }
-            assert_eq!(tag, NC_ATTRIBUTE);
-            (0..n)
-                .map(|_| {
-                    let name = self.name();
-                    let ty = self.u32();
-                    let k = self.u32() as usize;
-                    (name, self.values(ty, k, None))
-                })
-                .collect()
-        }
-    }
-
-    type Parsed = (Vec<(String, usize)>, Vec<(String, Val)>, Vec<RVar>);
-
-    fn parse(b: &[u8]) -> Parsed {
-        assert_eq!(&b[..3], b"CDF");
-        let mut r = Reader {
-            b,
-            p: 4,
-            version: b[3],
-        };
-        assert_eq!(r.u32(), 0, "numrecs");
-        let tag = r.u32();
-        let nd = r.u32() as usize;
-        assert!(tag == NC_DIMENSION || (tag == 0 && nd == 0));
-        let dims: Vec<(String, usize)> = (0..nd)
-            .map(|_| {
-                let n = r.name();
-                (n, r.u32() as usize)
-            })
-            .collect();
-        let gatts = r.attrs();
-        let tag = r.u32();
-        let nv = r.u32() as usize;
-        assert!(tag == NC_VARIABLE || (tag == 0 && nv == 0));
-        let mut vars = vec![];
-        let mut last_end = 0;
-        for _ in 0..nv {
-            let name = r.name();
-            let rank = r.u32() as usize;
-            let vdims: Vec<usize> = (0..rank).map(|_| r.u32() as usize).collect();
-            let attrs = r.attrs();
-            let ty = r.u32();
-            let vsize = r.u32() as usize;
-            let begin = r.off();
-            let count: usize = vdims.iter().map(|&d| dims[d].1).product();
-            let esz = if ty == 6 { 8 } else { 4 };
-            assert_eq!(vsize, (count * esz).div_ceil(4) * 4);
-            let data = r.values(ty, count, Some(begin));
-            last_end = last_end.max(begin + vsize);
-            vars.push(RVar {
-                name,
-                dims: vdims,
-                attrs,
-                data,
-            });
-        }
-        assert!(vars.iter().all(|_| true));
-        assert_eq!(last_end.max(r.p), b.len(), "file length");
-        (dims, gatts, vars)
-    }
+    use netcdf3::{DataType, FileReader};
 
     fn sample() -> NcFile {
         let mut f = NcFile::new();
@@ -633,58 +492,92 @@ mod tests {
                 vec![-20.5, 25.0, -18.25, -30.0, 27.125, -10.0],
             )
             .unwrap();
-        f.var_attr_text(t, "units", "degC");
+        f.var_attrs_text(t, &[("units", "degC"), ("long_name", "temperature")]);
         f.var_attr_f64(t, "valid_range", &[-100.0, 100.0]);
         f.var_attr_i32(t, "flag", &[1, 2, 3]);
+        f.var_attr_text(t, "units", "K"); // replaces, keeps its place
         f.add_var_f64("scalar", &[], vec![0.5]).unwrap();
         f
     }
 
+    fn read(bytes: Vec<u8>) -> FileReader {
+        FileReader::open_seek_read("mem.nc", Box::new(std::io::Cursor::new(bytes))).unwrap()
+    }
+
+    /// Written by netcdf3 and read back by netcdf3's own reader: the same
+    /// dimensions, attributes, types and values.
     #[test]
-    fn round_trip() {
+    fn round_trip_through_netcdf3_reader() {
         let bytes = sample().to_bytes().unwrap();
         assert_eq!(&bytes[..4], b"CDF\x02");
-        let (dims, gatts, vars) = parse(&bytes);
-        assert_eq!(dims, vec![("lat".into(), 3), ("day".into(), 2)]);
+        let mut r = read(bytes);
+        assert_eq!(r.version(), Version::Offset64Bit);
+        let ds = r.data_set();
+        assert_eq!(ds.dim_names(), vec!["lat".to_string(), "day".to_string()]);
+        assert_eq!(ds.dim_size("lat"), Some(3));
         assert_eq!(
-            gatts,
-            vec![
-                ("title".into(), Val::Text("test file".into())),
-                ("solar_constant_W_m2".into(), Val::Dbl(vec![1361.0])),
-            ]
+            ds.get_global_attr_names(),
+            vec!["title".to_string(), "solar_constant_W_m2".to_string()]
         );
-        assert_eq!(vars.len(), 4);
-        assert_eq!(vars[0].name, "lat");
-        assert_eq!(vars[0].data, Val::Dbl(vec![-60.0, 0.0, 60.0]));
         assert_eq!(
-            vars[0].attrs,
-            vec![("units".into(), Val::Text("degrees_north".into()))]
+            ds.get_global_attr_as_string("title").as_deref(),
+            Some("test file")
         );
-        assert_eq!(vars[1].data, Val::Int(vec![0, 182]));
-        assert_eq!(vars[2].name, "temperature");
-        assert_eq!(vars[2].dims, vec![1, 0]);
         assert_eq!(
-            vars[2].data,
-            Val::Dbl(vec![-20.5, 25.0, -18.25, -30.0, 27.125, -10.0])
+            ds.get_global_attr_f64("solar_constant_W_m2"),
+            Some(&[1361.0][..])
         );
-        assert_eq!(vars[2].attrs.len(), 3);
-        assert_eq!(vars[2].attrs[1].1, Val::Dbl(vec![-100.0, 100.0]));
-        assert_eq!(vars[2].attrs[2].1, Val::Int(vec![1, 2, 3]));
-        assert_eq!(vars[3].dims, Vec::<usize>::new());
-        assert_eq!(vars[3].data, Val::Dbl(vec![0.5]));
+        assert_eq!(
+            ds.get_var_names(),
+            vec!["lat", "day", "temperature", "scalar"]
+        );
+        assert_eq!(
+            ds.get_var_attr_as_string("lat", "units").as_deref(),
+            Some("degrees_north")
+        );
+        let t = ds.get_var("temperature").unwrap();
+        assert_eq!(t.dim_names(), vec!["day".to_string(), "lat".to_string()]);
+        assert_eq!(t.data_type(), DataType::F64);
+        assert_eq!(
+            t.get_attr_names(),
+            vec!["units", "long_name", "valid_range", "flag"]
+        );
+        assert_eq!(t.get_attr_as_string("units").as_deref(), Some("K"));
+        assert_eq!(t.get_attr_f64("valid_range"), Some(&[-100.0, 100.0][..]));
+        assert_eq!(t.get_attr_i32("flag"), Some(&[1, 2, 3][..]));
+        assert_eq!(ds.get_var("day").unwrap().data_type(), DataType::I32);
+        assert_eq!(ds.get_var("scalar").unwrap().dim_names().len(), 0);
+        assert_eq!(r.read_var_f64("lat").unwrap(), vec![-60.0, 0.0, 60.0]);
+        assert_eq!(r.read_var_i32("day").unwrap(), vec![0, 182]);
+        assert_eq!(
+            r.read_var_f64("temperature").unwrap(),
+            vec![-20.5, 25.0, -18.25, -30.0, 27.125, -10.0]
+        );
+        assert_eq!(r.read_var_f64("scalar").unwrap(), vec![0.5]);
     }
 
     #[test]
-    fn odd_length_i32_is_padded_and_empty_file_ok() {
+    fn odd_length_i32_and_empty_file_and_file_output() {
         let mut f = NcFile::new();
         f.add_dim("n", 3).unwrap();
         f.add_var_i32("a", &["n"], vec![1, 2, 3]).unwrap();
         f.add_var_f64("b", &["n"], vec![1.0, 2.0, 3.0]).unwrap();
-        let (_, _, vars) = parse(&f.to_bytes().unwrap());
-        assert_eq!(vars[1].data, Val::Dbl(vec![1.0, 2.0, 3.0]));
+        let bytes = f.to_bytes().unwrap();
+        assert_eq!(bytes.len() % 4, 0);
+        let mut r = read(bytes.clone());
+        assert_eq!(r.read_var_i32("a").unwrap(), vec![1, 2, 3]);
+        assert_eq!(r.read_var_f64("b").unwrap(), vec![1.0, 2.0, 3.0]);
+        // the same bytes through a file (beside the test binary, not in /tmp)
+        let exe = std::env::current_exe().unwrap();
+        let tmp = tempfile::Builder::new()
+            .prefix(".netcdf-unit-")
+            .tempfile_in(exe.parent().unwrap())
+            .unwrap();
+        f.write_file(tmp.as_file()).unwrap();
+        assert_eq!(std::fs::read(tmp.path()).unwrap(), bytes);
         let empty = NcFile::new().to_bytes().unwrap();
         assert_eq!(empty.len(), 4 + 4 + 8 * 3);
-        parse(&empty);
+        read(empty);
     }
 
     #[test]
@@ -704,6 +597,10 @@ mod tests {
             f.add_var_f64("x", &["lon"], vec![1.0]),
             Err(ExportError::Shape { .. })
         ));
+        assert!(matches!(
+            f.add_var_f64("x", &["lat", "lat"], vec![1.0; 9]),
+            Err(ExportError::Shape { .. })
+        ));
         f.add_var_f64("x", &["lat"], vec![1.0, f64::NAN, 2.0])
             .unwrap();
         match f.to_bytes() {
@@ -714,7 +611,7 @@ mod tests {
 
         let mut g = NcFile::new();
         g.global_attr_f64("bad", &[f64::INFINITY]);
-        assert!(matches!(g.to_bytes(), Err(ExportError::NonFinite { .. })));
+        assert!(matches!(g.check(), Err(ExportError::NonFinite { .. })));
         let mut g = NcFile::new();
         g.global_attr_text("bad name", "x");
         assert!(matches!(g.to_bytes(), Err(ExportError::InvalidName { .. })));

@@ -169,6 +169,12 @@ pub fn hemisphere_ice_edges(intervals: &[(f64, f64)], symmetric: bool) -> (f64, 
     }
 }
 
+/// The most poleward ice edge of each hemisphere of profile `t`, deg,
+/// (north, south), by the conventions of [`hemisphere_ice_edges`].
+pub fn ice_edges_deg(model: &Model, t: &[f64]) -> (f64, f64) {
+    hemisphere_ice_edges(&model.ice_intervals(t), model.grid.symmetric)
+}
+
 /// One equilibrium climate.
 #[derive(Clone, Debug)]
 pub struct Equilibrium {
