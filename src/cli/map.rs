@@ -387,27 +387,23 @@ fn render(
     masks.sort_unstable();
     masks.dedup();
     let names: Vec<String> = masks.iter().map(|m| regime_label(*m)).collect();
-    let idx: Vec<u32> = regime
-        .iter()
-        .map(|r| masks.iter().position(|m| *m == *r as u32).unwrap_or(0) as u32)
-        .collect();
-    let bistable: Vec<bool> = count.iter().map(|c| *c >= 2).collect();
-    let lines: Vec<(String, Vec<(f64, f64)>)> = bounds
-        .iter()
-        .filter(|b| b.points.len() >= 2 && crate::analysis::sweep::is_transition(&b.transition))
-        .map(|b| (b.transition.clone(), b.points.clone()))
-        .collect();
-    let fig = plot::regime_figure(
-        &format!("Stable climates: {name}"),
-        &format!("{ak} ({})", across_p.unit()),
-        &format!("{vk} ({})", vary_p.unit()),
-        &xs,
-        &ys,
-        &idx,
-        &names,
-        &bistable,
-        &lines,
-    )?;
+    let map = plot::RegimeMap {
+        across_key: ak.to_string(),
+        vary_key: vk.to_string(),
+        across: xs.clone(),
+        vary: ys.clone(),
+        regime: regime.iter().map(|r| *r as u32).collect(),
+        boundaries: bounds
+            .iter()
+            .filter(|b| b.points.len() >= 2 && crate::analysis::sweep::is_transition(&b.transition))
+            .map(|b| plot::BoundaryLine {
+                transition: b.transition.clone(),
+                method: plot::BoundaryMethod::from_name(b.method).unwrap_or_default(),
+                points: b.points.clone(),
+            })
+            .collect(),
+    };
+    let fig = plot::regime_figure(&format!("Stable climates: {name}"), &map)?;
     out.add(dir.join("map.svg"), fig.svg);
     out.add(dir.join("map.png"), fig.png);
     // summary

@@ -386,7 +386,8 @@ fn cmd_solve(args: &Args) -> Result<String, CliError> {
             ]);
         }
         curves.push(plot::ProfileCurve {
-            label: format!("{} ({})", k + 1, e.diagnostics.state.label()),
+            label: format!("{}", k + 1),
+            state: e.diagnostics.state.label().into(),
             latitude_deg: lat.clone(),
             temperature_c: e.temperature.clone(),
             albedo,
@@ -501,13 +502,14 @@ fn cmd_sun(args: &Args) -> Result<String, CliError> {
     }
     let fig = plot::field_figure(
         &format!("Daily-mean insolation: {}", sc.name()),
-        "day of year (0 = northern spring equinox)",
-        "latitude (deg)",
-        "insolation (W m-2)",
+        plot::labels::DAY_OF_YEAR,
+        plot::labels::LATITUDE,
+        plot::labels::INSOLATION,
         &days,
         &lats,
         &field,
         &[],
+        "",
     )?;
     let mut out = OutputSet::new();
     out.add_table(dir.join("insolation.csv"), &table)?;

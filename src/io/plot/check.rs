@@ -1,13 +1,13 @@
 //! Input checks shared by the figure functions.
 
-use std::ops::Range;
-
 use crate::io::export::ExportError;
 
+/// Every value finite, else [`ExportError::NonFinite`] naming `what`.
 pub(super) fn check_finite(what: &str, v: &[f64]) -> Result<(), ExportError> {
     crate::io::export::ensure_finite(what, v)
 }
 
+/// At least one element, else [`ExportError::Empty`].
 pub(super) fn check_nonempty<T>(what: &str, v: &[T]) -> Result<(), ExportError> {
     if v.is_empty() {
         Err(ExportError::Empty { what: what.into() })
@@ -16,6 +16,7 @@ pub(super) fn check_nonempty<T>(what: &str, v: &[T]) -> Result<(), ExportError> 
     }
 }
 
+/// Exactly `want` values, else [`ExportError::Shape`].
 pub(super) fn check_len(what: &str, got: usize, want: usize) -> Result<(), ExportError> {
     if got == want {
         Ok(())
@@ -26,6 +27,7 @@ pub(super) fn check_len(what: &str, got: usize, want: usize) -> Result<(), Expor
     }
 }
 
+/// Finite latitudes within ±90 degrees.
 pub(super) fn check_latitudes(what: &str, v: &[f64]) -> Result<(), ExportError> {
     check_finite(what, v)?;
     if v.iter().any(|x| x.abs() > 90.0) {
@@ -36,6 +38,7 @@ pub(super) fn check_latitudes(what: &str, v: &[f64]) -> Result<(), ExportError> 
     Ok(())
 }
 
+/// Finite polyline points.
 pub(super) fn check_polyline(what: &str, pts: &[(f64, f64)]) -> Result<(), ExportError> {
     if pts.iter().any(|(a, b)| !a.is_finite() || !b.is_finite()) {
         return Err(ExportError::NonFinite { what: what.into() });
@@ -70,6 +73,7 @@ pub(super) fn cell_edges(what: &str, v: &[f64]) -> Result<Vec<f64>, ExportError>
     Ok(e)
 }
 
+/// Smallest and largest value; `None` when there are none.
 pub(super) fn min_max(it: impl IntoIterator<Item = f64>) -> Option<(f64, f64)> {
     it.into_iter().fold(None, |acc, v| match acc {
         None => Some((v, v)),
@@ -77,13 +81,28 @@ pub(super) fn min_max(it: impl IntoIterator<Item = f64>) -> Option<(f64, f64)> {
     })
 }
 
-/// Range spanning the values with a small margin; degenerate spans widened.
-pub(super) fn padded(lo: f64, hi: f64, frac: f64) -> Range<f64> {
-    if hi > lo {
-        let p = (hi - lo) * frac;
-        (lo - p)..(hi + p)
-    } else {
-        let w = if lo == 0.0 { 1.0 } else { lo.abs() * 0.05 };
-        (lo - w)..(hi + w)
+/// The range spanned by cell edges, low to high.
+pub(super) fn edge_range(e: &[f64]) -> (f64, f64) {
+    let (a, b) = (e[0], e[e.len() - 1]);
+    (a.min(b), a.max(b))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn cell_edges_lie_halfway() {
+        assert_eq!(
+            cell_edges("x", &[0.0, 1.0, 3.0]).unwrap(),
+            vec![-0.5, 0.5, 2.0, 4.0]
+        );
+        assert_eq!(cell_edges("x", &[2.0, 1.0]).unwrap(), vec![2.5, 1.5, 0.5]);
+        assert!(cell_edges("x", &[1.0]).is_err());
+        assert!(cell_edges("x", &[0.0, 1.0, 1.0]).is_err());
+        assert!(matches!(
+            cell_edges("x", &[0.0, f64::NAN]),
+            Err(ExportError::NonFinite { .. })
+        ));
     }
 }
