@@ -329,8 +329,6 @@ fn render(
             count[j * nx + i] = s.stable_count[j] as i32;
         }
     }
-    let across_p = Param::from_key(ak).expect("validated key");
-    let vary_p = Param::from_key(vk).expect("validated key");
     let nc = map_netcdf(
         spec,
         name,
@@ -345,27 +343,23 @@ fn render(
     masks.sort_unstable();
     masks.dedup();
     let names: Vec<String> = masks.iter().map(|m| regime_label(*m)).collect();
-    let idx: Vec<u32> = regime
-        .iter()
-        .map(|r| masks.iter().position(|m| *m == *r as u32).unwrap_or(0) as u32)
-        .collect();
-    let bistable: Vec<bool> = count.iter().map(|c| *c >= 2).collect();
-    let lines: Vec<(String, Vec<(f64, f64)>)> = bounds
-        .iter()
-        .filter(|b| b.points.len() >= 2 && crate::analysis::sweep::is_transition(&b.transition))
-        .map(|b| (b.transition.clone(), b.points.clone()))
-        .collect();
-    let fig = plot::regime_figure(
-        &format!("Stable climates: {name}"),
-        &format!("{ak} ({})", across_p.unit()),
-        &format!("{vk} ({})", vary_p.unit()),
-        &xs,
-        &ys,
-        &idx,
-        &names,
-        &bistable,
-        &lines,
-    )?;
+    let map = plot::RegimeMap {
+        across_key: ak.to_string(),
+        vary_key: vk.to_string(),
+        across: xs.clone(),
+        vary: ys.clone(),
+        regime: regime.iter().map(|r| *r as u32).collect(),
+        boundaries: bounds
+            .iter()
+            .filter(|b| b.points.len() >= 2 && crate::analysis::sweep::is_transition(&b.transition))
+            .map(|b| plot::BoundaryLine {
+                transition: b.transition.clone(),
+                method: plot::BoundaryMethod::from_name(b.method).unwrap_or_default(),
+                points: b.points.clone(),
+            })
+            .collect(),
+    };
+    let fig = plot::regime_figure(&format!("Stable climates: {name}"), &map)?;
     out.add(dir.join("map.svg"), fig.svg);
     out.add(dir.join("map.png"), fig.png);
     // summary
@@ -406,8 +400,6 @@ fn map_netcdf(
     (regime, count): (&[i32], &[i32]),
 ) -> Result<NcFile, CliError> {
     let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
-    let across_p = Param::from_key(ak).expect("validated key");
-    let vary_p = Param::from_key(vk).expect("validated key");
     let (nx, ny) = (xs.len(), ys.len());
     let nclim = slices
         .iter()
@@ -435,6 +427,8 @@ fn map_netcdf(
         |c: usize| spec.vary_from + (spec.vary_to - spec.vary_from) * c as f64 / spec.cells as f64;
     let bnds: Vec<f64> = (0..ny).flat_map(|c| [edge(c), edge(c + 1)]).collect();
     let mut nc = NcFile::new();
+    let across_p = Param::from_key(ak).expect("validated key");
+    let vary_p = Param::from_key(vk).expect("validated key");
     let (adim, vdim) = (sanitize(ak), sanitize(vk));
     let bdim = format!("{vdim}_bnds");
     nc.add_dim(&vdim, ny)?;

@@ -675,16 +675,17 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             &format!(
                 "Periodic climate {} ({}): {}",
                 e + 1,
-                d.state.label(),
+                d.state.label().replace('-', " "),
                 sc.name()
             ),
-            "day of year (0 = northern spring equinox)",
-            "latitude (deg)",
-            "temperature (C)",
+            plot::labels::DAY_OF_YEAR,
+            plot::labels::LATITUDE,
+            plot::labels::TEMPERATURE,
             &days,
             &lat,
             &field,
             &edge_lines(c),
+            "ice edge",
         )?;
         out.add(dir.join(format!("seasonal_cycle_{}.svg", e + 1)), fig.svg);
         out.add(dir.join(format!("seasonal_cycle_{}.png", e + 1)), fig.png);
@@ -696,7 +697,8 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             .map(|(s, a)| if *s > 0.0 { 1.0 - a / s } else { 0.0 })
             .collect();
         curves.push(plot::ProfileCurve {
-            label: format!("{} ({}, annual mean)", e + 1, d.state.label()),
+            label: format!("{}", e + 1),
+            state: d.state.label().into(),
             latitude_deg: lat.clone(),
             temperature_c: c.annual_mean.clone(),
             albedo,

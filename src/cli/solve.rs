@@ -90,7 +90,8 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
             ]);
         }
         curves.push(plot::ProfileCurve {
-            label: format!("{} ({})", k + 1, e.diagnostics.state.label()),
+            label: format!("{}", k + 1),
+            state: e.diagnostics.state.label().into(),
             latitude_deg: lat.clone(),
             temperature_c: e.temperature.clone(),
             albedo,

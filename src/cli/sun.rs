@@ -29,13 +29,14 @@ pub fn cmd_sun(args: &Args) -> Result<String, CliError> {
     }
     let fig = plot::field_figure(
         &format!("Daily-mean insolation: {}", sc.name()),
-        "day of year (0 = northern spring equinox)",
-        "latitude (deg)",
-        "insolation (W m-2)",
+        plot::labels::DAY_OF_YEAR,
+        plot::labels::LATITUDE,
+        plot::labels::INSOLATION,
         &days,
         &lats,
         &field,
         &[],
+        "",
     )?;
     let mut out = OutputSet::new();
     out.add_table(dir.join("insolation.csv"), &table)?;

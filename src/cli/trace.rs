@@ -305,6 +305,11 @@ fn hysteresis_figure(
                 .map(|q| q.diagnostics.global_mean_c)
                 .collect(),
             stable: b.points.iter().map(|q| q.unstable_modes == 0).collect(),
+            state: b
+                .points
+                .iter()
+                .map(|q| q.diagnostics.state.label().to_string())
+                .collect(),
         })
         .collect();
     let folds: Vec<FoldMark> = h

@@ -440,13 +440,15 @@ impl Scenario {
 
     /// Markdown table of every key (for the README).
     pub fn schema_markdown() -> String {
-        let mut out =
-            String::from("| key | default | unit | allowed | meaning |\n|---|---|---|---|---|\n");
+        let mut out = String::from(
+            "| key | label | default | unit | allowed | meaning |\n|---|---|---|---|---|---|\n",
+        );
         for s in SCHEMA {
             let _ = writeln!(
                 out,
-                "| `{}` | `{}` | {} | {} | {} |",
+                "| `{}` | {} | `{}` | {} | {} | {} |",
                 s.key,
+                s.label,
                 s.default,
                 s.unit,
                 allowed_text(s.kind, s.unit).replace('|', "/"),

@@ -33,6 +33,8 @@ pub enum Kind {
 pub struct KeySpec {
     /// `section.name`, or `name` at top level.
     pub key: &'static str,
+    /// Human label for axes and tables, without the unit ("Stellar flux S0").
+    pub label: &'static str,
     /// Kind and range.
     pub kind: Kind,
     /// Default as TOML text.
@@ -62,6 +64,7 @@ const fn pos(hi: f64) -> Kind {
 pub const SCHEMA: &[KeySpec] = &[
     KeySpec {
         key: "name",
+        label: "Scenario name",
         kind: Kind::Text,
         default: "\"unnamed\"",
         unit: "",
@@ -69,6 +72,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "description",
+        label: "Description",
         kind: Kind::Text,
         default: "\"\"",
         unit: "",
@@ -76,6 +80,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "grid.bands",
+        label: "Latitude bands",
         kind: Kind::Int { lo: 4, hi: 20000 },
         default: "90",
         unit: "",
@@ -83,6 +88,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "grid.spacing",
+        label: "Band spacing",
         kind: Kind::Choice(&["sine", "latitude"]),
         default: "\"sine\"",
         unit: "",
@@ -90,6 +96,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "grid.symmetric",
+        label: "Hemispheric symmetry",
         kind: Kind::Bool,
         default: "false",
         unit: "",
@@ -97,6 +104,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "orbit.flux",
+        label: "Stellar flux S0",
         kind: pos(1e5),
         default: "1361.0",
         unit: "W m-2",
@@ -104,6 +112,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "orbit.obliquity",
+        label: "Obliquity",
         kind: num(0.0, 180.0),
         default: "23.44",
         unit: "deg",
@@ -111,6 +120,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "orbit.eccentricity",
+        label: "Eccentricity",
         kind: num(0.0, 0.9),
         default: "0.0",
         unit: "",
@@ -118,6 +128,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "orbit.perihelion",
+        label: "Longitude of perihelion",
         kind: num(0.0, 360.0),
         default: "283.0",
         unit: "deg",
@@ -125,6 +136,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "insolation.kind",
+        label: "Insolation law",
         kind: Kind::Choice(&["orbital", "legendre"]),
         default: "\"orbital\"",
         unit: "",
@@ -132,6 +144,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "insolation.p2",
+        label: "Insolation P2 coefficient p2",
         kind: num(-1.0, 2.0),
         default: "-0.482",
         unit: "",
@@ -139,6 +152,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "radiation.kind",
+        label: "Outgoing longwave law",
         kind: Kind::Choice(&["linear", "greybody"]),
         default: "\"linear\"",
         unit: "",
@@ -146,6 +160,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "radiation.a",
+        label: "OLR coefficient A",
         kind: num(-1e4, 1e4),
         default: "203.3",
         unit: "W m-2",
@@ -153,6 +168,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "radiation.b",
+        label: "OLR coefficient B",
         kind: pos(1e3),
         default: "2.09",
         unit: "W m-2 K-1",
@@ -160,6 +176,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "radiation.emissivity",
+        label: "Emissivity",
         kind: Kind::Num {
             lo: 0.0,
             hi: 1.0,
@@ -171,6 +188,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "radiation.co2_ppm",
+        label: "CO2",
         kind: pos(1e6),
         default: "280.0",
         unit: "ppm",
@@ -178,6 +196,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "radiation.co2_ref_ppm",
+        label: "Reference CO2",
         kind: pos(1e6),
         default: "280.0",
         unit: "ppm",
@@ -185,6 +204,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "albedo.kind",
+        label: "Albedo law",
         kind: Kind::Choice(&["step", "smooth"]),
         default: "\"step\"",
         unit: "",
@@ -192,6 +212,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "albedo.open",
+        label: "Open-surface albedo",
         kind: num(0.0, 1.0),
         default: "0.319",
         unit: "",
@@ -199,6 +220,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "albedo.open_p2",
+        label: "Open-surface albedo P2 coefficient",
         kind: num(-1.0, 1.0),
         default: "0.202",
         unit: "",
@@ -206,6 +228,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "albedo.ice",
+        label: "Ice albedo",
         kind: num(0.0, 1.0),
         default: "0.62",
         unit: "",
@@ -213,6 +236,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "albedo.threshold",
+        label: "Ice threshold temperature",
         kind: num(-150.0, 100.0),
         default: "-10.0",
         unit: "C",
@@ -220,6 +244,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "albedo.width",
+        label: "Albedo ramp width",
         kind: pos(100.0),
         default: "2.0",
         unit: "K",
@@ -227,6 +252,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "transport.kind",
+        label: "Heat transport law",
         kind: Kind::Choice(&["diffusive", "relaxation"]),
         default: "\"diffusive\"",
         unit: "",
@@ -234,6 +260,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "transport.diffusivity",
+        label: "Diffusivity D",
         kind: num(0.0, 1e3),
         default: "0.649",
         unit: "W m-2 K-1",
@@ -241,6 +268,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "transport.relaxation",
+        label: "Relaxation rate gamma",
         kind: num(0.0, 1e3),
         default: "3.04",
         unit: "W m-2 K-1",
@@ -248,6 +276,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seasons.enabled",
+        label: "Seasonal cycle",
         kind: Kind::Bool,
         default: "false",
         unit: "",
@@ -255,6 +284,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seasons.mixed_layer_depth",
+        label: "Mixed-layer depth",
         kind: pos(1e4),
         default: "75.0",
         unit: "m",
@@ -262,6 +292,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seasons.land_fraction",
+        label: "Land fraction",
         kind: num(0.0, 1.0),
         default: "0.0",
         unit: "",
@@ -269,6 +300,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seasons.land_heat_capacity",
+        label: "Land heat capacity",
         kind: pos(1e3),
         default: "0.45",
         unit: "W yr m-2 K-1",
@@ -276,6 +308,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seasons.steps_per_year",
+        label: "Time steps per year",
         kind: Kind::Int { lo: 12, hi: 100000 },
         default: "360",
         unit: "",
@@ -283,6 +316,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "solver.tolerance",
+        label: "Newton tolerance",
         kind: Kind::Num {
             lo: 1e-13,
             hi: 1.0,
@@ -294,6 +328,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "solver.max_iterations",
+        label: "Newton iteration limit",
         kind: Kind::Int { lo: 1, hi: 100000 },
         default: "200",
         unit: "",
@@ -301,6 +336,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "solver.warm_start",
+        label: "Warm-start temperature",
         kind: num(-100.0, 200.0),
         default: "30.0",
         unit: "C",
@@ -308,6 +344,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "solver.cold_start",
+        label: "Cold-start temperature",
         kind: num(-200.0, 100.0),
         default: "-60.0",
         unit: "C",
@@ -322,6 +359,18 @@ pub const OCEAN_HEAT_PER_METRE: f64 = 1025.0 * 3985.0 / (365.25 * 86400.0);
 /// The schema entry of `key`.
 pub fn spec(key: &str) -> Option<&'static KeySpec> {
     SCHEMA.iter().find(|k| k.key == key)
+}
+
+/// The axis label of a key: its human label with the unit in parentheses,
+/// e.g. "Stellar flux S0 (W m-2)", "CO2 (ppm)", "Eccentricity" (no unit).
+/// A key outside the schema is returned as given (there is nothing better
+/// to show; figures only receive validated keys).
+pub fn axis_label(key: &str) -> String {
+    match spec(key) {
+        Some(s) if s.unit.is_empty() => s.label.to_string(),
+        Some(s) => format!("{} ({})", s.label, s.unit),
+        None => key.to_string(),
+    }
 }
 
 /// The allowed values of a key as text ("0 to 90 deg").
@@ -346,5 +395,48 @@ pub fn allowed_text(kind: Kind, unit: &str) -> String {
             .collect::<Vec<_>>()
             .join(" or "),
         Kind::Text => "text".into(),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn axis_labels_carry_label_and_unit() {
+        // Expected texts are the labels and units stated in the brief for
+        // this schema (common practice, no source).
+        assert_eq!(axis_label("orbit.flux"), "Stellar flux S0 (W m-2)");
+        assert_eq!(axis_label("radiation.co2_ppm"), "CO2 (ppm)");
+        assert_eq!(axis_label("orbit.obliquity"), "Obliquity (deg)");
+        assert_eq!(
+            axis_label("transport.diffusivity"),
+            "Diffusivity D (W m-2 K-1)"
+        );
+        assert_eq!(axis_label("orbit.eccentricity"), "Eccentricity");
+        assert_eq!(axis_label("no.such_key"), "no.such_key");
+    }
+
+    #[test]
+    fn every_key_has_a_human_label() {
+        for s in SCHEMA {
+            let first = s.label.chars().next();
+            assert!(
+                first.is_some_and(|c| c.is_uppercase()),
+                "label of {} must start with a capital letter",
+                s.key
+            );
+            assert!(
+                !s.label.contains('.'),
+                "label of {} looks like a key",
+                s.key
+            );
+            assert!(
+                !s.label.contains('_'),
+                "label of {} has an underscore",
+                s.key
+            );
+            assert!(!s.label.contains('('), "label of {} holds a unit", s.key);
+        }
     }
 }
