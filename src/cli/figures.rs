@@ -21,7 +21,14 @@ pub fn cmd_figures(args: &Args) -> Result<String, CliError> {
             command: cmd.into(),
             out: Some(dir.join(sub)),
             quiet: args.quiet,
-            line: format!("icefold {cmd} --out {}", dir.join(sub).display()),
+            // the README map shows fold-continued boundaries beside the
+            // slice-joined ones
+            fold_curves: cmd == "map",
+            line: format!(
+                "icefold {cmd} --out {}{}",
+                dir.join(sub).display(),
+                if cmd == "map" { " --fold-curves" } else { "" }
+            ),
             ..Args::default()
         };
         s += &run(&a)?;
