@@ -197,6 +197,12 @@ impl Model {
         m
     }
 
+    /// Greenhouse forcing 5.35 ln(C/C0) W m-2 subtracted from the OLR
+    /// (Myhre et al. 1998).
+    pub fn forcing(&self) -> f64 {
+        self.forcing
+    }
+
     /// Number of bands.
     pub fn len(&self) -> usize {
         self.grid.len()
