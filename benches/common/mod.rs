@@ -68,7 +68,8 @@ impl Summary {
         self.note(line);
     }
 
-    /// `label: Nx the time of base (time against base time)`, for scaling.
+    /// `label: time (Nx the base time)`, for scaling with bands.
+    #[allow(dead_code)] // not every bench binary scales
     pub fn scaling(&self, label: &str, id: &[&str], base: &[&str]) {
         let line = match (self.time(id), self.time(base)) {
             (Some(t), _) if id == base => format!("{label}: {}", secs(t)),
