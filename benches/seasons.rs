@@ -46,13 +46,13 @@ fn periodic(c: &mut Criterion, s: &Summary) {
         let mut eq = vec![30.0; n];
         newton(&am, &mut eq, &NewtonOptions::default(), &mut ws).unwrap();
         for (start_id, start) in [("start=warm", vec![30.0; n]), ("start=annual_eq", eq)] {
-            let id = format!("{depth}/{start_id}");
             let mut shot: Option<Periodic> = None;
-            g.bench_function(BenchmarkId::new("shooting", &id), |b| {
+            let id = |f: &str| BenchmarkId::new(format!("{f}/{depth}"), start_id);
+            g.bench_function(id("shooting"), |b| {
                 b.iter(|| shot = Some(shoot(&mut sm, &start, &ShootingOptions::default()).unwrap()))
             });
             let mut spun: Option<(usize, Vec<f64>)> = None;
-            g.bench_function(BenchmarkId::new("spin_up", &id), |b| {
+            g.bench_function(id("spin_up"), |b| {
                 b.iter(|| {
                     let mut u = start.clone();
                     let years = spin_up(&mut sm, &mut u, 1e-6, 1_000_000).unwrap();
@@ -66,8 +66,8 @@ fn periodic(c: &mut Criterion, s: &Summary) {
     for (depth, start_id, shot, spun) in seen {
         s.ratio(
             &format!("shooting vs spin-up to 1e-6 K per year, {depth}, {start_id}"),
-            &["periodic", "shooting", depth, start_id],
-            &["periodic", "spin_up", depth, start_id],
+            &["periodic", &format!("shooting/{depth}"), start_id],
+            &["periodic", &format!("spin_up/{depth}"), start_id],
         );
         if let Some(p) = &shot {
             let mu = p.multipliers[0].0.hypot(p.multipliers[0].1);

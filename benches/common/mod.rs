@@ -32,7 +32,8 @@ impl Summary {
     /// in this run (not filtered out, not `--test` or `--list`).
     pub fn time(&self, id: &[&str]) -> Option<f64> {
         let mut path = self.dir.clone();
-        path.extend(id);
+        // each component is one directory, with criterion's replacements
+        path.extend(id.iter().map(|c| c.replace(UNSAFE, "_")));
         path.push("new");
         path.push("estimates.json");
         let modified = std::fs::metadata(&path).ok()?.modified().ok()?;
@@ -95,6 +96,9 @@ impl Summary {
         }
     }
 }
+
+/// Characters criterion replaces by `_` in directory names.
+const UNSAFE: [char; 10] = ['?', '"', '/', '\\', '*', '<', '>', ':', '|', '^'];
 
 /// Where criterion writes, looked up in its own order: `CRITERION_HOME`,
 /// `CARGO_TARGET_DIR/criterion`, cargo's target directory, `target/criterion`.
