@@ -59,8 +59,12 @@ impl Summary {
     pub fn ratio(&self, label: &str, fast: &[&str], slow: &[&str]) {
         let line = match (self.time(fast), self.time(slow)) {
             (Some(f), Some(s)) => format!(
-                "{label}: {} faster ({} against {})",
-                times(s / f),
+                "{label}: {} ({} against {})",
+                if s >= f {
+                    format!("{} faster", times(s / f))
+                } else {
+                    format!("{} slower", times(f / s))
+                },
                 secs(f),
                 secs(s)
             ),
