@@ -1,17 +1,70 @@
-//! Regime-map figures (not timed tests): `cargo bench --bench map`.
-//! 91 obliquity slices at 90 bands over the default flux range: wall time on
-//! all threads and on one, and a brute-force grid of spin-ups (91 x 200
-//! cells, each time-stepped from a warm and a cold start) in the same run.
+//! Regime-map figures (criterion, not timed tests): `cargo bench --bench map`.
+//! 91 obliquity slices at 90 bands over the default flux range on 1 and 2
+//! threads, and a brute-force grid of spin-ups (91 x 200 cells, each
+//! time-stepped from a warm and a cold start) on 2 threads. A summary after
+//! criterion's report prints the speed-up and the map against brute force
+//! as ratios of times measured in this run.
+//!
+//! Every group here uses criterion's minimum of 10 samples: a map takes
+//! about a second and the brute-force grid over half a minute per run, so
+//! the brute-force group alone takes several minutes.
+mod common;
+
+use common::Summary;
+use criterion::Criterion;
 use icefold::analysis::sweep::{MapSpec, Slice, compute_slice};
 use icefold::io::scenario::Scenario;
-use icefold::model::Param;
+use icefold::model::{Model, Param};
 use icefold::numerics::newton::{Workspace, spin_up};
 use rayon::prelude::*;
-use std::time::Instant;
+
+fn slices(model: &Model, spec: &MapSpec) -> Vec<Slice> {
+    (0..spec.count)
+        .into_par_iter()
+        .map(|j| {
+            compute_slice(
+                model,
+                spec,
+                Param::Obliquity,
+                Param::Flux,
+                j,
+                30.0,
+                -60.0,
+                1e-10,
+            )
+        })
+        .collect()
+}
+
+/// Every cell from a warm and a cold start, implicit steps of half a year
+/// (75 m mixed layer) until the change is below 1e-4 K/yr; returns the
+/// number of spin-ups that converged.
+fn brute_force(model: &Model, spec: &MapSpec) -> u32 {
+    (0..spec.count)
+        .into_par_iter()
+        .map(|j| {
+            let mut m = model.clone();
+            m.set_param(Param::Obliquity, spec.across_value(j));
+            let mut ws = Workspace::new(&m);
+            let mut found = 0u32;
+            for c in 0..spec.cells {
+                m.set_param(Param::Flux, spec.cell_value(c));
+                for start in [30.0, -60.0] {
+                    let mut t = vec![start; m.len()];
+                    if spin_up(&m, &mut t, 0.5, 1e-4, 100_000, &mut ws).is_ok() {
+                        found += 1;
+                    }
+                }
+            }
+            found
+        })
+        .sum()
+}
 
 fn main() {
-    let sc = Scenario::load(None, &[]).unwrap();
-    let model = sc.model();
+    let s = Summary::new("map");
+    let mut c = Criterion::default().without_plots().configure_from_args();
+    let model = Scenario::load(None, &[]).unwrap().model();
     let flux = model.param(Param::Flux);
     let spec = MapSpec {
         across: "orbit.obliquity".into(),
@@ -24,70 +77,57 @@ fn main() {
         cells: 200,
         fold_curves: false,
     };
-    let run = |threads: usize| -> (f64, Vec<Slice>) {
-        let pool = rayon::ThreadPoolBuilder::new()
+    let pool = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
             .build()
-            .unwrap();
-        let t0 = Instant::now();
-        let slices: Vec<Slice> = pool.install(|| {
-            (0..spec.count)
-                .into_par_iter()
-                .map(|j| {
-                    compute_slice(
-                        &model,
-                        &spec,
-                        Param::Obliquity,
-                        Param::Flux,
-                        j,
-                        30.0,
-                        -60.0,
-                        1e-10,
-                    )
-                })
-                .collect()
-        });
-        (t0.elapsed().as_secs_f64(), slices)
+            .unwrap()
     };
-    let threads = rayon::current_num_threads();
-    let (t_all, s_all) = run(threads);
-    let (t_one, s_one) = run(1);
-    assert_eq!(s_all, s_one, "results depend on the number of threads");
-    let points: usize = s_all.iter().map(|s| s.points.len()).sum();
-    println!(
-        "map/slices=91/bands=90: {t_all:.2} s on {threads} threads, {t_one:.2} s on 1 thread, speed-up {:.2}x ({points} traced points)",
-        t_one / t_all
-    );
 
-    // brute force: every cell from a warm and a cold start, implicit steps
-    // of half a year (75 m mixed layer) until the change is below 1e-4 K/yr
-    let t0 = Instant::now();
-    let cells: Vec<u32> = (0..spec.count)
-        .into_par_iter()
-        .flat_map_iter(|j| {
-            let mut m = model.clone();
-            m.set_param(Param::Obliquity, spec.across_value(j));
-            let mut ws = Workspace::new(&m);
-            (0..spec.cells)
-                .map(|c| {
-                    m.set_param(Param::Flux, spec.cell_value(c));
-                    let mut found = 0u32;
-                    for start in [30.0, -60.0] {
-                        let mut t = vec![start; m.len()];
-                        if spin_up(&m, &mut t, 0.5, 1e-4, 100_000, &mut ws).is_ok() {
-                            found += 1;
-                        }
-                    }
-                    found
-                })
-                .collect::<Vec<_>>()
-        })
-        .collect();
-    let t_brute = t0.elapsed().as_secs_f64();
-    println!(
-        "brute force 91 x 200 cells x 2 starts: {t_brute:.1} s on {threads} threads ({} spin-ups converged of {}); map is {:.0}x faster and also finds unstable states and exact folds",
-        cells.iter().sum::<u32>(),
-        2 * cells.len(),
-        t_brute / t_all
+    let mut results: Vec<Option<Vec<Slice>>> = vec![None, None];
+    let mut g = c.benchmark_group("map");
+    g.sample_size(10);
+    for threads in [1, 2] {
+        let p = pool(threads);
+        let out = &mut results[threads - 1];
+        g.bench_function(format!("threads={threads}"), |b| {
+            b.iter(|| *out = Some(p.install(|| slices(&model, &spec))))
+        });
+    }
+    g.finish();
+
+    let mut converged = None;
+    let mut g = c.benchmark_group("brute_force");
+    g.sample_size(10);
+    let p = pool(2);
+    g.bench_function("threads=2", |b| {
+        b.iter(|| converged = Some(p.install(|| brute_force(&model, &spec))))
+    });
+    g.finish();
+
+    c.final_summary();
+    if let [Some(one), Some(two)] = &results[..] {
+        assert_eq!(one, two, "results depend on the number of threads");
+        let points: usize = two.iter().map(|s| s.points.len()).sum();
+        s.note(format!(
+            "map of 91 obliquity slices x 200 flux cells at 90 bands: {points} traced points, identical on 1 and 2 threads"
+        ));
+    }
+    s.ratio(
+        "map on 2 threads vs 1 thread",
+        &["map", "threads=2"],
+        &["map", "threads=1"],
     );
+    s.ratio(
+        "map vs brute-force spin-up grid (both on 2 threads)",
+        &["map", "threads=2"],
+        &["brute_force", "threads=2"],
+    );
+    if let Some(k) = converged {
+        s.note(format!(
+            "  brute force: {k} of {} spin-ups converged (91 x 200 cells x 2 starts); it finds neither unstable states nor exact folds",
+            2 * spec.count * spec.cells
+        ));
+    }
+    s.print();
 }
