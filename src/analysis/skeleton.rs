@@ -11,13 +11,14 @@
 //! is linear in T and in the flux Q once the ice edge x_s is fixed, so each
 //! ice topology is a one-parameter family Q(x_s) (North 1975, J. Atmos. Sci.
 //! 32, 2033). Here the family is computed on a grid whose faces move with
-//! the edge: n/2 cells cover [0, x_s] and n/2 cover [x_s, 1] (equal steps in
-//! x or in latitude within each region, as the scenario's spacing), the edge
-//! is a face where T = T_s, and the two regions are finite-volume problems
-//! with that Dirichlet value, coupled by the continuity of the diffusive flux
-//! through the edge. For fixed x_s, T = Q u + v with two tridiagonal solves,
-//! and flux continuity, which is also the global energy balance, is one
-//! linear equation for Q. The cell count of each region is fixed, so Q(x_s)
+//! the edge: a fixed two thirds of the cells cover [0, x_s] and the rest
+//! [x_s, 1] (in x or in latitude, as the scenario's spacing, smoothly graded
+//! so that cells beside the edge have equal widths), and the edge is a face.
+//! For fixed x_s the finite-volume balance (conservative, as in
+//! [`crate::model::Model`]) is linear: T = Q u + v with two tridiagonal
+//! solves, and the edge condition T(x_s) = T_s, with T at the face
+//! interpolated between the two centres beside it, is one linear equation
+//! for Q. The cell count of each region is fixed, so Q(x_s)
 //! is smooth in x_s: its extrema are the folds (no kinks, no spurious turning
 //! points), and they converge at second order with the number of cells.
 //!
@@ -82,7 +83,7 @@ impl Topology {
 pub struct SkeletonFold {
     /// The family it lies on.
     pub topology: Topology,
-    /// Flux S0 at the fold, W m-2 (Q = S0/4 times the unit insolation).
+    /// Flux S0 at the fold, W m-2.
     pub flux: f64,
     /// The edge, x_s = sin(latitude).
     pub edge_x: f64,
@@ -154,7 +155,12 @@ impl InsolationTable {
         };
         (
             herm(self.i_s[j], self.i_s[j + 1], self.s[j], self.s[j + 1]),
-            herm(self.i_sp2[j], self.i_sp2[j + 1], self.sp2[j], self.sp2[j + 1]),
+            herm(
+                self.i_sp2[j],
+                self.i_sp2[j + 1],
+                self.sp2[j],
+                self.sp2[j + 1],
+            ),
         )
     }
 }
@@ -194,7 +200,9 @@ impl EdgeFamilies {
     pub fn new(model: &Model, cells: usize) -> Result<EdgeFamilies, SkeletonError> {
         let pl = &model.planet;
         let OlrLaw::Linear { a, b } = pl.olr else {
-            return Err(SkeletonError::Unsupported("linear OLR (radiation.kind = \"linear\")"));
+            return Err(SkeletonError::Unsupported(
+                "linear OLR (radiation.kind = \"linear\")",
+            ));
         };
         let Transport::Diffusive { diffusivity } = pl.transport else {
             return Err(SkeletonError::Unsupported(
@@ -202,7 +210,9 @@ impl EdgeFamilies {
             ));
         };
         if !matches!(pl.albedo.kind, AlbedoKind::Step) {
-            return Err(SkeletonError::Unsupported("the step albedo (albedo.kind = \"step\")"));
+            return Err(SkeletonError::Unsupported(
+                "the step albedo (albedo.kind = \"step\")",
+            ));
         }
         if diffusivity <= 0.0 {
             return Err(SkeletonError::Unsupported("a positive diffusivity"));
@@ -231,21 +241,66 @@ impl EdgeFamilies {
         })
     }
 
-    /// Faces of cells k0..k1 covering [x0, x1] with equal steps in the
-    /// spacing's coordinate.
-    fn lay(&mut self, k0: usize, k1: usize, x0: f64, x1: f64) {
-        let m = (k1 - k0) as f64;
-        for k in k0..=k1 {
-            let t = (k - k0) as f64 / m;
-            self.faces[k] = match self.spacing {
-                Spacing::Sine => x0 + t * (x1 - x0),
-                Spacing::Latitude => {
-                    let (p0, p1) = (x0.clamp(0.0, 1.0).asin(), x1.clamp(0.0, 1.0).asin());
-                    (p0 + t * (p1 - p0)).sin()
-                }
-            };
+    /// Cells on the equatorward side of the edge: two thirds of them (a
+    /// count fixed along every branch, so the family stays smooth).
+    fn split(&self) -> usize {
+        (2 * self.n / 3).clamp(2, self.n - 2)
+    }
+
+    /// The spacing's coordinate of x (x itself, or the latitude) and back.
+    fn coord(&self, x: f64) -> f64 {
+        match self.spacing {
+            Spacing::Sine => x,
+            Spacing::Latitude => x.clamp(0.0, 1.0).asin(),
         }
-        self.faces[k1] = x1;
+    }
+
+    fn uncoord(&self, s: f64) -> f64 {
+        match self.spacing {
+            Spacing::Sine => s,
+            Spacing::Latitude => s.sin(),
+        }
+    }
+
+    /// Faces with the edge at face `m`: cells 0..m cover [0, x], cells
+    /// m..n cover [x, 1], in the spacing's coordinate s. The map from cell
+    /// index to s is quadratic on each side and its slope is continuous at
+    /// the edge (the longer region's cells shrink linearly towards the
+    /// edge to the width of the shorter region's), so the grid is smoothly
+    /// graded and the finite volumes stay second order for every edge,
+    /// with the same cell counts everywhere on the branch.
+    fn lay_edge(&mut self, m: usize, x: f64) {
+        let n = self.n;
+        let (se, send) = (self.coord(x), self.coord(1.0));
+        let (wa, wb) = (se / m as f64, (send - se) / (n - m) as f64);
+        let r = wa / wb;
+        let (alpha, beta) = if r >= 1.0 {
+            (2.0 - 1.0 / r, 1.0)
+        } else {
+            (1.0, r)
+        };
+        for k in 0..=n {
+            let s = if k <= m {
+                let t = k as f64 / m as f64;
+                se * (alpha * t + (1.0 - alpha) * t * t)
+            } else {
+                let t = (k - m) as f64 / (n - m) as f64;
+                se + (send - se) * (beta * t + (1.0 - beta) * t * t)
+            };
+            self.faces[k] = self.uncoord(s);
+        }
+        self.faces[m] = x;
+        self.faces[n] = 1.0;
+    }
+
+    /// Faces of the plain grid (no edge): equal steps in the coordinate.
+    fn lay_plain(&mut self) {
+        let n = self.n;
+        let send = self.coord(1.0);
+        for k in 0..=n {
+            self.faces[k] = self.uncoord(send * k as f64 / n as f64);
+        }
+        self.faces[n] = 1.0;
     }
 
     /// Cell averages of (S/S0)(1 - α) and the cell centres, with ice on the
@@ -268,56 +323,33 @@ impl EdgeFamilies {
         }
     }
 
-    /// Assembles B T - div F on the current cells, with the face `edge`
-    /// (if any) cut: each side sees T_s at the edge (its flux term moved to
-    /// the right-hand side). Returns the two edge conductances (κ⁻, κ⁺).
-    fn assemble(&mut self, edge: Option<usize>) -> (f64, f64) {
+    /// Assembles K = B - div(D (1 - x²) d/dx) on the current cells
+    /// (finite volumes, no flux through the equator or the pole), factors
+    /// it and solves K u = (S/S0)(1 - α) and K v = -A: the equilibrium at
+    /// flux S0 is T = S0 u + v.
+    fn solve(&mut self) -> Option<()> {
         let n = self.n;
         let j = &mut self.jac;
         j.clear();
-        let mut kappa = (0.0, 0.0);
         for k in 0..n {
             j.diag[k] = self.b;
         }
         for f in 1..n {
             let xf = self.faces[f];
-            let g = self.d * (1.0 - xf * xf);
+            let k = self.d * (1.0 - xf * xf) / (self.centres[f] - self.centres[f - 1]);
             let (wl, wr) = (
                 self.faces[f] - self.faces[f - 1],
                 self.faces[f + 1] - self.faces[f],
             );
-            if Some(f) == edge {
-                let km = g / (xf - self.centres[f - 1]);
-                let kp = g / (self.centres[f] - xf);
-                j.diag[f - 1] += km / wl;
-                j.diag[f] += kp / wr;
-                kappa = (km, kp);
-            } else {
-                let k = g / (self.centres[f] - self.centres[f - 1]);
-                j.diag[f - 1] += k / wl;
-                j.diag[f] += k / wr;
-                j.upper[f - 1] -= k / wl;
-                j.lower[f] -= k / wr;
-            }
+            j.diag[f - 1] += k / wl;
+            j.diag[f] += k / wr;
+            j.upper[f - 1] -= k / wl;
+            j.lower[f] -= k / wr;
         }
-        kappa
-    }
-
-    /// Solves for u (response to unit Q: K u = coalbedo) and v (response to
-    /// -A and the edge's T_s: K v = -A + Dirichlet terms).
-    fn solve(&mut self, edge: Option<(usize, f64, f64)>) -> Option<()> {
         self.jac.factor().ok()?;
-        for k in 0..self.n {
+        for k in 0..n {
             self.u[k] = self.coalb[k];
             self.v[k] = -self.a;
-        }
-        if let Some((m, km, kp)) = edge {
-            let (wl, wr) = (
-                self.faces[m] - self.faces[m - 1],
-                self.faces[m + 1] - self.faces[m],
-            );
-            self.v[m - 1] += km * self.threshold / wl;
-            self.v[m] += kp * self.threshold / wr;
         }
         self.jac.solve(&mut self.u);
         self.jac.solve(&mut self.v);
@@ -333,25 +365,26 @@ impl EdgeFamilies {
     /// The one-edge state with its edge at `x` (0 < x < 1): the flux that
     /// makes it an equilibrium, or None where none exists (singular).
     pub fn edge_state(&mut self, topology: Topology, x: f64) -> Option<EdgeState> {
-        let half = self.n / 2;
-        self.lay(0, half, 0.0, x);
-        self.lay(half, self.n, x, 1.0);
+        let half = self.split();
+        self.lay_edge(half, x);
         match topology {
             Topology::PolarCap => self.cells(|k| k >= half),
             Topology::EquatorialBelt => self.cells(|k| k < half),
             _ => return None,
         }
-        let (km, kp) = self.assemble(Some(half));
-        self.solve(Some((half, km, kp)))?;
-        // flux continuity: κ⁻ (T_s - T_{m-1}) = κ⁺ (T_m - T_s), T = Q u + v
+        self.solve()?;
+        // T at the edge face, interpolated linearly between the two centres
+        // beside it (T and its flux are continuous there): T_e = Q u_e + v_e
         let m = half;
-        let gu = -km * self.u[m - 1] - kp * self.u[m];
-        let gv = (km + kp) * self.threshold - km * self.v[m - 1] - kp * self.v[m];
-        if gu == 0.0 || !gu.is_finite() {
+        let (cl, cr) = (self.centres[m - 1], self.centres[m]);
+        let wl = (cr - x) / (cr - cl);
+        let ue = wl * self.u[m - 1] + (1.0 - wl) * self.u[m];
+        let ve = wl * self.v[m - 1] + (1.0 - wl) * self.v[m];
+        if ue == 0.0 || !ue.is_finite() {
             return None;
         }
-        let q = -gv / gu;
-        let flux = 4.0 * q;
+        let q = (self.threshold - ve) / ue;
+        let flux = q;
         let gm = self.mean(|k| q * self.u[k] + self.v[k]);
         (flux.is_finite() && flux > 0.0).then_some(EdgeState {
             flux,
@@ -366,11 +399,10 @@ impl EdgeFamilies {
     /// averages.
     pub fn corner_flux(&mut self, topology: Topology) -> Option<f64> {
         let n = self.n;
-        self.lay(0, n, 0.0, 1.0);
+        self.lay_plain();
         let ice = matches!(topology, Topology::Snowball);
         self.cells(|_| ice);
-        self.assemble(None);
-        self.solve(None)?;
+        self.solve()?;
         let (idx, at): ([usize; 3], f64) = match topology {
             Topology::IceFree => ([n - 1, n - 2, n - 3], 1.0),
             Topology::Snowball => ([0, 1, 2], 0.0),
@@ -379,7 +411,7 @@ impl EdgeFamilies {
         let eu = self.end_value(&self.u, idx, at);
         let ev = self.end_value(&self.v, idx, at);
         let q = (self.threshold - ev) / eu;
-        (q.is_finite() && q > 0.0).then_some(4.0 * q)
+        (q.is_finite() && q > 0.0).then_some(q)
     }
 
     /// Value at `at` of the quadratic whose averages over the cells `idx`
@@ -391,7 +423,11 @@ impl EdgeFamilies {
         for (row, &k) in idx.iter().enumerate() {
             let (a, b) = (self.faces[k] - at, self.faces[k + 1] - at);
             let w = b - a;
-            m[row] = [1.0, (b * b - a * a) / (2.0 * w), (b * b * b - a * a * a) / (3.0 * w)];
+            m[row] = [
+                1.0,
+                (b * b - a * a) / (2.0 * w),
+                (b * b * b - a * a * a) / (3.0 * w),
+            ];
             r[row] = t[k];
         }
         // Cramer's rule for the constant coefficient
@@ -409,7 +445,7 @@ impl EdgeFamilies {
 
     /// dQ/dx_s (as d flux / d x_s) by a central difference of the family.
     pub fn slope(&mut self, topology: Topology, x: f64) -> Option<f64> {
-        let h = 1e-6 * x.min(1.0 - x).max(1e-9);
+        let h = 1e-5 * x.min(1.0 - x).max(1e-12);
         let hi = self.edge_state(topology, x + h)?.flux;
         let lo = self.edge_state(topology, x - h)?.flux;
         Some((hi - lo) / (2.0 * h))
@@ -430,11 +466,23 @@ impl EdgeFamilies {
     /// the two corners, in ascending flux.
     pub fn folds(&mut self, samples: usize) -> Vec<SkeletonFold> {
         let mut out = Vec::new();
-        let lo = 1e-4;
-        let hi = 1.0 - 1e-4;
         for topology in [Topology::PolarCap, Topology::EquatorialBelt] {
-            let xs: Vec<f64> = (0..=samples)
-                .map(|k| lo + (hi - lo) * k as f64 / samples as f64)
+            // Chebyshev-spaced edges: dense near the equator and the pole,
+            // where small caps and belts turn
+            // Within one plain cell (1/n) of the snowball corner (where the
+            // open region vanishes: a cap's edge at the equator, a belt's at
+            // the pole) the limit of the edge family and the snowball, which
+            // is solved on the plain grid, differ by their discretisation
+            // errors, and that difference would show as a turning point: the
+            // corner is reported from the snowball branch instead.
+            let cell = 1.0 / self.n as f64;
+            let (lo, hi) = match topology {
+                Topology::PolarCap => (cell, 1.0),
+                _ => (0.0, 1.0 - cell),
+            };
+            let xs: Vec<f64> = (1..samples)
+                .map(|k| 0.5 * (1.0 - (std::f64::consts::PI * k as f64 / samples as f64).cos()))
+                .map(|t| lo + (hi - lo) * t)
                 .collect();
             let slopes: Vec<Option<f64>> = xs.iter().map(|&x| self.slope(topology, x)).collect();
             for k in 1..xs.len() {
@@ -444,15 +492,15 @@ impl EdgeFamilies {
                 if s0 == 0.0 || s0.signum() == s1.signum() {
                     continue;
                 }
-                if let Some(x) = self.refine(topology, xs[k - 1], xs[k], s0) {
-                    if let Some(st) = self.edge_state(topology, x) {
-                        out.push(SkeletonFold {
-                            topology,
-                            flux: st.flux,
-                            edge_x: x,
-                            corner: false,
-                        });
-                    }
+                if let Some(x) = self.refine(topology, xs[k - 1], xs[k], s0)
+                    && let Some(st) = self.edge_state(topology, x)
+                {
+                    out.push(SkeletonFold {
+                        topology,
+                        flux: st.flux,
+                        edge_x: x,
+                        corner: false,
+                    });
                 }
             }
         }
