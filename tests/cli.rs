@@ -121,6 +121,30 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }
+    // the edge-family large-cap fold and the traced one are two
+    // discretisations of the same model: they agree to a fraction of a
+    // W m-2 (common practice, no source)
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap();
+    let ef = summary["edge_family"]["folds"]
+        .as_array()
+        .expect("edge_family folds");
+    let large = ef
+        .iter()
+        .filter(|f| f["topology"] == "polar-caps" && f["corner"] == false)
+        .map(|f| f["orbit.flux"].as_f64().unwrap())
+        .fold(f64::INFINITY, f64::min);
+    let traced = summary["folds"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["value"].as_f64().unwrap())
+        .fold(f64::INFINITY, f64::min);
+    assert!(
+        (large - traced).abs() < 0.5,
+        "edge family {large} vs traced {traced}"
+    );
+    assert!(stdout.contains("edge-family folds"), "{stdout}");
     let bad = temp_dir("trace-bad");
     for args in [
         vec!["trace", "--vary", "orbit.colour"],

@@ -71,6 +71,48 @@ pub fn decimal(x: f64) -> f64 {
     format!("{x:.11e}").parse().unwrap_or(x)
 }
 
+/// The folds of the edge-parametrised families of the linear step-albedo
+/// model ([`crate::analysis::skeleton`]) for a trace in flux, as JSON; or
+/// why they do not apply.
+fn edge_family(
+    sc: &crate::io::scenario::Scenario,
+    model: &crate::model::Model,
+    param: Param,
+) -> serde_json::Value {
+    use crate::analysis::skeleton::EdgeFamilies;
+    if param != Param::Flux || sc.flag("seasons.enabled") {
+        return serde_json::json!({"applies": false, "reason": "only for annual-mean traces in orbit.flux"});
+    }
+    let cells = if model.grid.symmetric {
+        model.len()
+    } else {
+        model.len() / 2
+    };
+    match EdgeFamilies::new(model, cells) {
+        Err(e) => serde_json::json!({"applies": false, "reason": e.to_string()}),
+        Ok(mut f) => {
+            let folds: Vec<serde_json::Value> = f
+                .folds(400)
+                .iter()
+                .map(|x| {
+                    serde_json::json!({
+                        "topology": x.topology.label(),
+                        "orbit.flux": x.flux,
+                        "ice_edge_north_deg": x.edge_x.clamp(0.0, 1.0).asin().to_degrees(),
+                        "corner": x.corner,
+                    })
+                })
+                .collect();
+            serde_json::json!({
+                "applies": true,
+                "method": "ice edge as the parameter of each one-edge topology on a grid whose faces move with the edge (North's method on a grid); hemispherically symmetric states with at most one edge per hemisphere",
+                "cells_per_hemisphere": cells,
+                "folds": folds,
+            })
+        }
+    }
+}
+
 /// Runs `trace`.
 pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
@@ -156,6 +198,8 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             })
             .collect(),
     );
+    let skeleton = edge_family(&sc, &model, param);
+    summary.insert("edge_family".into(), skeleton.clone());
     summary.insert(
         "failures".into(),
         h.failures
@@ -172,6 +216,19 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     out.add(dir.join("hysteresis.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = out.commit()?;
+    let mut edge_text = String::new();
+    if let Some(folds) = skeleton["folds"].as_array() {
+        edge_text += "edge-family folds (ice edge as unknown; see summary.json edge_family):\n";
+        for f in folds {
+            edge_text += &format!(
+                "  {:<16} {key} = {:.6}  ice edge {:.3} deg{}\n",
+                f["topology"].as_str().unwrap_or(""),
+                f["orbit.flux"].as_f64().unwrap_or(f64::NAN),
+                f["ice_edge_north_deg"].as_f64().unwrap_or(f64::NAN),
+                if f["corner"] == true { " (corner)" } else { "" }
+            );
+        }
+    }
     let mut s = format!(
         "{}: {} branches in {key} over [{from}, {to}]\n",
         sc.name(),
@@ -196,6 +253,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     for (a, b) in &h.bistable {
         s += &format!("  bistable: {key} from {a:.6} to {b:.6}\n");
     }
+    s += &edge_text;
     s += &written_list(&written);
     Ok(s)
 }
