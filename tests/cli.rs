@@ -145,6 +145,10 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
         "edge family {large} vs traced {traced}"
     );
     assert!(stdout.contains("edge-family folds"), "{stdout}");
+    // the default range ends while the snowball is still stable: said plainly
+    assert!(stdout.contains("open: still bistable at --to"), "{stdout}");
+    let w = &summary["bistable_windows"][0];
+    assert_eq!(w["open_at_to"], true, "{w}");
     let bad = temp_dir("trace-bad");
     for args in [
         vec!["trace", "--vary", "orbit.colour"],

@@ -113,6 +113,14 @@ fn edge_family(
     }
 }
 
+/// Whether a bistable window [a, b] is cut by the traced range [from, to]
+/// at its lower and its upper end (its end is the range's end, to 1e-9 of
+/// the range): the hysteresis there is not closed inside the range.
+fn window_open_ends(a: f64, b: f64, from: f64, to: f64) -> (bool, bool) {
+    let tol = 1e-9 * (to - from).abs().max(f64::MIN_POSITIVE);
+    ((a - from).abs() <= tol, (b - to).abs() <= tol)
+}
+
 /// Runs `trace`.
 pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
@@ -182,7 +190,15 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
         "bistable_windows".into(),
         h.bistable
             .iter()
-            .map(|(a, b)| serde_json::json!({ "from": a, "to": b }))
+            .map(|&(a, b)| {
+                let (lo, hi) = window_open_ends(a, b, from, to);
+                serde_json::json!({
+                    "from": a,
+                    "to": b,
+                    "open_at_from": lo,
+                    "open_at_to": hi,
+                })
+            })
             .collect(),
     );
     summary.insert(
@@ -250,8 +266,15 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             );
         }
     }
-    for (a, b) in &h.bistable {
-        s += &format!("  bistable: {key} from {a:.6} to {b:.6}\n");
+    for &(a, b) in &h.bistable {
+        let (lo, hi) = window_open_ends(a, b, from, to);
+        let note = match (lo, hi) {
+            (false, false) => String::new(),
+            (true, false) => format!(" (open: still bistable at --from {from}; widen the range)"),
+            (false, true) => format!(" (open: still bistable at --to {to}; widen the range)"),
+            (true, true) => " (open at both ends of the range; widen it)".to_string(),
+        };
+        s += &format!("  bistable: {key} from {a:.6} to {b:.6}{note}\n");
     }
     s += &edge_text;
     s += &written_list(&written);
@@ -395,7 +418,23 @@ fn hysteresis_figure(
 
 #[cfg(test)]
 mod tests {
-    use super::decimal;
+    use super::{decimal, window_open_ends};
+
+    #[test]
+    fn windows_cut_by_the_range_are_open() {
+        assert_eq!(
+            window_open_ends(1179.6, 1538.24, 1070.08, 1538.24),
+            (false, true)
+        );
+        assert_eq!(
+            window_open_ends(1070.08, 1200.0, 1070.08, 1538.24),
+            (true, false)
+        );
+        assert_eq!(
+            window_open_ends(1179.6, 1400.0, 1070.08, 1538.24),
+            (false, false)
+        );
+    }
 
     #[test]
     fn range_ends_are_the_decimals_a_user_writes() {
