@@ -377,10 +377,7 @@ fn render(
         "boundaries": bounds.iter().map(|b| serde_json::json!({"transition": b.transition, "method": b.method, "points": b.points.len()})).collect::<Vec<_>>(),
         "notes": notes,
     });
-    out.add_text(
-        dir.join("summary.json"),
-        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
-    );
+    out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), scenario_toml);
     Ok(())
 }

@@ -255,14 +255,8 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     let mut out = OutputSet::new();
     out.add_table(dir.join("timeseries.csv"), &table)?;
     out.add_table(dir.join("state.csv"), &st)?;
-    out.add_text(
-        dir.join("state.json"),
-        &(serde_json::to_string_pretty(&state_meta(&sc, &sm)).unwrap_or_default() + "\n"),
-    );
-    out.add_text(
-        dir.join("summary.json"),
-        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
-    );
+    out.add_json(dir.join("state.json"), &state_meta(&sc, &sm));
+    out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = out.commit()?;
     let mut s = format!(
@@ -740,10 +734,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     out.add_table(dir.join("ice_edges.csv"), &edges)?;
     out.add(dir.join("profiles.svg"), fig.svg);
     out.add(dir.join("profiles.png"), fig.png);
-    out.add_text(
-        dir.join("summary.json"),
-        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
-    );
+    out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = out.commit()?;
     let mut s = format!(

@@ -119,10 +119,7 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
     );
     let fig = plot::profile_figure(&format!("Equilibrium climates: {}", sc.name()), &curves)?;
     out.add_table(dir.join("profile.csv"), &table)?;
-    out.add_text(
-        dir.join("summary.json"),
-        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
-    );
+    out.add_json(dir.join("summary.json"), &summary);
     out.add(dir.join("profiles.svg"), fig.svg);
     out.add(dir.join("profiles.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());

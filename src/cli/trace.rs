@@ -223,10 +223,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             .map(|s| serde_json::Value::from(s.clone()))
             .collect(),
     );
-    out.add_text(
-        dir.join("summary.json"),
-        &(serde_json::to_string_pretty(&summary).unwrap_or_default() + "\n"),
-    );
+    out.add_json(dir.join("summary.json"), &summary);
     let fig = hysteresis_figure(&h, sc.name())?;
     out.add(dir.join("hysteresis.svg"), fig.svg);
     out.add(dir.join("hysteresis.png"), fig.png);

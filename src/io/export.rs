@@ -331,6 +331,14 @@ impl OutputSet {
         self.add(path, text.as_bytes().to_vec());
     }
 
+    /// Stage a JSON value, pretty-printed with a final newline.
+    pub fn add_json(&mut self, path: impl Into<PathBuf>, value: &impl serde::Serialize) {
+        self.add_text(
+            path,
+            &(serde_json::to_string_pretty(value).unwrap_or_default() + "\n"),
+        );
+    }
+
     /// Stage a table rendered as CSV; fails (staging nothing) if the table is invalid.
     pub fn add_table(
         &mut self,
