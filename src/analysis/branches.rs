@@ -7,6 +7,7 @@ use crate::model::{Model, Param};
 use crate::numerics::continuation::{Branch, EndReason, Problem, Settings, Tracer};
 use crate::numerics::linalg::{Singular, Tridiagonal};
 use crate::numerics::newton::{NewtonOptions, Workspace, newton, unstable_modes};
+use crate::physics::albedo::AlbedoKind;
 
 /// The annual-mean model as a continuation problem in one parameter.
 pub struct AnnualProblem {
@@ -221,6 +222,14 @@ pub fn trace_all(
     opts: &TraceOptions,
     progress: &mut dyn FnMut(&str),
 ) -> Hysteresis {
+    // the step albedo: ice edges as unknowns, wherever the formulation
+    // covers the model
+    if matches!(model.planet.albedo.kind, AlbedoKind::Step)
+        && let Ok(h) =
+            super::edgetrace::trace_edges(model, param, lo, hi, warm, cold, opts, progress)
+    {
+        return h;
+    }
     let mut failures = Vec::new();
     // 1. seeds: equilibria from warm and cold starts at several values
     let mut seeds: Vec<(f64, Vec<f64>)> = Vec::new();

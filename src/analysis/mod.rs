@@ -5,6 +5,7 @@
 //! linear step-albedo model parametrised by its ice edge ([`skeleton`]).
 
 pub mod branches;
+pub mod edgetrace;
 pub mod foldcurve;
 pub mod periodic;
 pub mod skeleton;

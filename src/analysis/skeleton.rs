@@ -38,9 +38,8 @@
 use crate::model::Model;
 use crate::numerics::grid::Spacing;
 use crate::numerics::linalg::Tridiagonal;
-use crate::numerics::quad::gauss_legendre;
 use crate::physics::albedo::AlbedoKind;
-use crate::physics::insolation::Insolation;
+use crate::physics::insolation::{Insolation, InsolationTable};
 use crate::physics::radiation::OlrLaw;
 use crate::physics::transport::Transport;
 
@@ -90,79 +89,6 @@ pub struct SkeletonFold {
     /// `true` for a corner: the end of the ice-free branch (a cap or belt
     /// appears) or of the snowball branch (the equator thaws).
     pub corner: bool,
-}
-
-/// Tables of the integrals of the unit insolation, for cell averages.
-struct InsolationTable {
-    /// ∫_0^x s dx and ∫_0^x s P2 dx at x_j = j/m, s = S/S0.
-    i_s: Vec<f64>,
-    i_sp2: Vec<f64>,
-    /// s(x_j) and s(x_j) P2(x_j): the derivatives, for Hermite interpolation.
-    s: Vec<f64>,
-    sp2: Vec<f64>,
-}
-
-const TABLE: usize = 4096;
-
-fn p2(x: f64) -> f64 {
-    0.5 * (3.0 * x * x - 1.0)
-}
-
-impl InsolationTable {
-    fn new(ins: &Insolation) -> InsolationTable {
-        let m = TABLE;
-        let (gz, gw) = gauss_legendre(8);
-        let mut t = InsolationTable {
-            i_s: vec![0.0; m + 1],
-            i_sp2: vec![0.0; m + 1],
-            s: vec![0.0; m + 1],
-            sp2: vec![0.0; m + 1],
-        };
-        for j in 0..=m {
-            let x = j as f64 / m as f64;
-            let s = ins.annual_mean(x);
-            t.s[j] = s;
-            t.sp2[j] = s * p2(x);
-            if j > 0 {
-                let (a, b) = ((j - 1) as f64 / m as f64, x);
-                let (mut is, mut isp) = (0.0, 0.0);
-                for (z, w) in gz.iter().zip(&gw) {
-                    let xq = 0.5 * (a + b) + 0.5 * (b - a) * z;
-                    let sq = ins.annual_mean(xq);
-                    is += w * sq;
-                    isp += w * sq * p2(xq);
-                }
-                t.i_s[j] = t.i_s[j - 1] + 0.5 * (b - a) * is;
-                t.i_sp2[j] = t.i_sp2[j - 1] + 0.5 * (b - a) * isp;
-            }
-        }
-        t
-    }
-
-    /// (∫_0^x s, ∫_0^x s P2) by cubic Hermite interpolation of the tables.
-    fn integrals(&self, x: f64) -> (f64, f64) {
-        let m = TABLE as f64;
-        let u = (x.clamp(0.0, 1.0) * m).min(m - 1e-9);
-        let j = u.floor() as usize;
-        let t = u - j as f64;
-        let h = 1.0 / m;
-        let herm = |y0: f64, y1: f64, d0: f64, d1: f64| {
-            let (t2, t3) = (t * t, t * t * t);
-            (2.0 * t3 - 3.0 * t2 + 1.0) * y0
-                + (t3 - 2.0 * t2 + t) * h * d0
-                + (-2.0 * t3 + 3.0 * t2) * y1
-                + (t3 - t2) * h * d1
-        };
-        (
-            herm(self.i_s[j], self.i_s[j + 1], self.s[j], self.s[j + 1]),
-            herm(
-                self.i_sp2[j],
-                self.i_sp2[j + 1],
-                self.sp2[j],
-                self.sp2[j + 1],
-            ),
-        )
-    }
 }
 
 /// The linear model's numbers and a workspace for the family Q(x_s).
@@ -231,7 +157,7 @@ impl EdgeFamilies {
             open_p2: pl.albedo.open_p2,
             ice: pl.albedo.ice,
             threshold: pl.albedo.threshold,
-            table: InsolationTable::new(&ins),
+            table: InsolationTable::new(&ins, 4096),
             faces: vec![0.0; n + 1],
             centres: vec![0.0; n],
             coalb: vec![0.0; n],

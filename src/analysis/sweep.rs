@@ -166,9 +166,8 @@ pub fn regime_label(mask: u32) -> String {
     }
 }
 
-/// Reduces a traced slice to its compact form; `model` is the one traced
-/// (the across value set), for the ice edges of the cells' climates.
-pub fn reduce(model: &Model, spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slice {
+/// Reduces a traced slice to its compact form.
+pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slice {
     let mut points = Vec::new();
     let mut folds = Vec::new();
     let mut notes = h.failures.clone();
@@ -226,13 +225,11 @@ pub fn reduce(model: &Model, spec: &MapSpec, index: usize, across: f64, h: &Hyst
                     };
                     regime[c] |= state_bit(q.diagnostics.state);
                     stable_count[c] += 1;
-                    let (north, south) =
-                        crate::model::climate::ice_edges_deg(model, &q.temperature);
                     climates[c].push(CellClimate {
                         state: state_bit(q.diagnostics.state),
                         global_mean_c: q.diagnostics.global_mean_c,
-                        ice_edge_north_deg: north,
-                        ice_edge_south_deg: south,
+                        ice_edge_north_deg: q.diagnostics.ice_edge_north_deg,
+                        ice_edge_south_deg: q.diagnostics.ice_edge_south_deg,
                     });
                 }
             }
@@ -282,7 +279,7 @@ pub fn compute_slice(
         &opts,
         &mut |_| {},
     );
-    reduce(&m, spec, j, a, &h)
+    reduce(spec, j, a, &h)
 }
 
 /// The label of the boundary a fold lies on: `from -> to` for a fold that

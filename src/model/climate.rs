@@ -66,49 +66,7 @@ pub fn diagnose(model: &Model, t: &[f64]) -> Diagnostics {
     let fl = model.band_fluxes(t);
     let intervals = model.ice_intervals(t);
     let (x0, x1) = (g.faces[0], g.faces[g.len()]);
-    let span = x1 - x0;
-    let tiny = 1e-12;
-    let covered: f64 = intervals.iter().map(|(a, b)| b - a).sum();
-    let mut edges: Vec<f64> = Vec::new();
-    for &(a, b) in &intervals {
-        for e in [a, b] {
-            if e > x0 + tiny && e < x1 - tiny && e >= 0.0 {
-                edges.push(e.asin().to_degrees());
-            }
-        }
-    }
-    // For a symmetric grid the equator is a mirror, not an edge.
-    if g.symmetric {
-        edges.retain(|e| *e > 1e-9);
-    }
-    edges.sort_by(f64::total_cmp);
-    let state = if covered <= tiny * span {
-        State::IceFree
-    } else if covered >= (1.0 - tiny) * span {
-        State::Snowball
-    } else {
-        let touches_pole_n = intervals.last().is_some_and(|iv| iv.1 >= x1 - tiny);
-        let touches_pole_s = intervals.first().is_some_and(|iv| iv.0 <= x0 + tiny);
-        let has_equator = intervals.iter().any(|&(a, b)| a <= 0.0 && b >= 0.0);
-        let caps_only = intervals
-            .iter()
-            .all(|&(a, b)| b >= x1 - tiny || a <= x0 + tiny);
-        if g.symmetric {
-            if intervals.len() == 1 && touches_pole_n && !has_equator {
-                State::PolarCaps
-            } else if intervals.len() == 1 && has_equator && !touches_pole_n {
-                State::EquatorialBelt
-            } else {
-                State::Other
-            }
-        } else if caps_only && !has_equator && (touches_pole_n || touches_pole_s) {
-            State::PolarCaps
-        } else if intervals.len() == 1 && has_equator && !touches_pole_n && !touches_pole_s {
-            State::EquatorialBelt
-        } else {
-            State::Other
-        }
-    };
+    let (edges, state) = classify_ice(&intervals, x0, x1, g.symmetric);
     let (north, south) = hemisphere_ice_edges(&intervals, g.symmetric);
     let ins = g.mean(&fl.insolation);
     let abs = g.mean(&fl.absorbed);
@@ -125,6 +83,61 @@ pub fn diagnose(model: &Model, t: &[f64]) -> Diagnostics {
         state,
         energy_imbalance: g.mean(&net),
     }
+}
+
+/// The ice edges (northern-hemisphere latitudes, deg, ascending) and the
+/// kind of climate of merged, ascending ice intervals in x on the domain
+/// [x0, x1] (x0 = 0 for a symmetric grid, mirrored at the equator).
+pub fn classify_ice(
+    intervals: &[(f64, f64)],
+    x0: f64,
+    x1: f64,
+    symmetric: bool,
+) -> (Vec<f64>, State) {
+    let span = x1 - x0;
+    let tiny = 1e-12;
+    let covered: f64 = intervals.iter().map(|(a, b)| b - a).sum();
+    let mut edges: Vec<f64> = Vec::new();
+    for &(a, b) in intervals {
+        for e in [a, b] {
+            if e > x0 + tiny && e < x1 - tiny && e >= 0.0 {
+                edges.push(e.asin().to_degrees());
+            }
+        }
+    }
+    // For a symmetric grid the equator is a mirror, not an edge.
+    if symmetric {
+        edges.retain(|e| *e > 1e-9);
+    }
+    edges.sort_by(f64::total_cmp);
+    let state = if covered <= tiny * span {
+        State::IceFree
+    } else if covered >= (1.0 - tiny) * span {
+        State::Snowball
+    } else {
+        let touches_pole_n = intervals.last().is_some_and(|iv| iv.1 >= x1 - tiny);
+        let touches_pole_s = intervals.first().is_some_and(|iv| iv.0 <= x0 + tiny);
+        let has_equator = intervals.iter().any(|&(a, b)| a <= 0.0 && b >= 0.0);
+        let caps_only = intervals
+            .iter()
+            .all(|&(a, b)| b >= x1 - tiny || a <= x0 + tiny);
+        if symmetric {
+            if intervals.len() == 1 && touches_pole_n && !has_equator {
+                State::PolarCaps
+            } else if intervals.len() == 1 && has_equator && !touches_pole_n {
+                State::EquatorialBelt
+            } else {
+                State::Other
+            }
+        } else if caps_only && !has_equator && (touches_pole_n || touches_pole_s) {
+            State::PolarCaps
+        } else if intervals.len() == 1 && has_equator && !touches_pole_n && !touches_pole_s {
+            State::EquatorialBelt
+        } else {
+            State::Other
+        }
+    };
+    (edges, state)
 }
 
 /// The most poleward ice edge of each hemisphere, deg, from the merged,

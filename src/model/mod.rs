@@ -7,6 +7,7 @@
 
 pub mod annual;
 pub mod climate;
+pub mod edges;
 pub mod seasonal;
 pub mod subgrid;
 

@@ -50,6 +50,20 @@ pub trait Problem {
     fn label(&mut self, _u: &[f64]) -> u64 {
         0
     }
+    /// How far u is inside the region where the problem is defined
+    /// (positive inside, zero on its boundary): for an ice topology, where a
+    /// region vanishes or a new one appears. Where a traced point's margin
+    /// turns negative the branch ends at an [`EndReason::Event`], located
+    /// on the curve where the margin vanishes. Continuous in u.
+    fn margin(&mut self, _u: &[f64]) -> f64 {
+        f64::INFINITY
+    }
+    /// The rounding level of max |F| at the last factored state: the
+    /// corrector accepts a residual below max(tolerance, this), since no
+    /// state represented in double precision does better.
+    fn residual_floor(&self) -> f64 {
+        0.0
+    }
 }
 
 /// Continuation settings.
@@ -133,6 +147,9 @@ pub enum EndReason {
     },
     /// Point limit reached.
     PointLimit,
+    /// The problem's margin vanished: the branch leaves the region where
+    /// the problem is defined (e.g. an ice topology changes) at p.
+    Event(f64),
     /// The branch came back onto points it had already traced (a closed
     /// loop of equilibria).
     Loop(f64),
@@ -149,6 +166,7 @@ impl std::fmt::Display for EndReason {
                 )
             }
             EndReason::PointLimit => write!(f, "point limit reached"),
+            EndReason::Event(p) => write!(f, "the ice topology changes at p = {p}"),
             EndReason::Loop(p) => write!(f, "closed loop: came back to p = {p}"),
         }
     }
@@ -272,6 +290,12 @@ impl<'a, P: Problem> Tracer<'a, P> {
         Ok(y_total)
     }
 
+    /// The corrector tolerance: the requested one, or the problem's rounding
+    /// floor where that is higher.
+    fn tolerance(&self) -> f64 {
+        self.settings.tolerance.max(self.problem.residual_floor())
+    }
+
     /// Factors J at (u, p) unless the problem already holds those factors.
     fn factor_at(&mut self, u: &[f64], p: f64) -> Result<(), Singular> {
         if self.ws.last_valid && self.ws.last_p == p && self.ws.last_u == u {
@@ -335,7 +359,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
             if !res.is_finite() {
                 return Err(res);
             }
-            if res < self.settings.tolerance && it > 0 {
+            if res < self.tolerance() && it > 0 {
                 return Ok((it, res));
             }
             self.problem.d_param(u, &mut self.ws.fp);
@@ -351,7 +375,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
                 u[i] += self.ws.a[i];
             }
             *p += dp;
-            if step < 1e-12 * (1.0 + max_abs(u)) && res < 100.0 * self.settings.tolerance {
+            if step < 1e-12 * (1.0 + max_abs(u)) && res < 100.0 * self.tolerance() {
                 self.problem.set_param(*p);
                 self.problem.residual(u, &mut self.ws.f);
                 return Ok((it + 1, max_abs(&self.ws.f)));
@@ -382,7 +406,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
                 return None;
             }
             let res = max_abs(&self.ws.f);
-            if res < self.settings.tolerance {
+            if res < self.tolerance() {
                 return Some(res);
             }
             self.ws.a.copy_from_slice(&self.ws.f);
@@ -394,7 +418,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
             for i in 0..u.len() {
                 u[i] -= self.ws.a[i];
             }
-            if step < 1e-12 * (1.0 + max_abs(u)) && res < 100.0 * self.settings.tolerance {
+            if step < 1e-12 * (1.0 + max_abs(u)) && res < 100.0 * self.tolerance() {
                 return Some(res);
             }
         }
@@ -465,6 +489,18 @@ impl<'a, P: Problem> Tracer<'a, P> {
                         ds *= 0.25;
                         continue;
                     }
+                    if self.problem.margin(&u) < 0.0 {
+                        if let Some(ev) = self.locate_event(&cur, ds) {
+                            let p_ev = ev.p;
+                            pts.push(ev);
+                            return (pts, EndReason::Event(p_ev));
+                        }
+                        if ds > s.ds_min {
+                            ds *= 0.5;
+                            continue;
+                        }
+                        return (pts, EndReason::Event(cur.p));
+                    }
                     // a closed loop repeats its points bit for bit
                     if let Some(&k) = seen.get(&p.to_bits()) {
                         let q: &Point = &pts[k];
@@ -513,6 +549,64 @@ impl<'a, P: Problem> Tracer<'a, P> {
                 }
             }
         }
+    }
+
+    /// The point between `cur` (margin >= 0) and the corrected point at
+    /// arclength `ds` ahead (margin < 0) where the margin vanishes: the
+    /// Illinois variant of regula falsi on the margin of corrected points,
+    /// to |margin| < 1e-10 or an arclength bracket of 1e-13.
+    fn locate_event(&mut self, cur: &Point, ds: f64) -> Option<Point> {
+        let point_at = |tr: &mut Self, sigma: f64| -> Option<(Vec<f64>, f64, f64, f64)> {
+            let mut u: Vec<f64> = cur
+                .u
+                .iter()
+                .zip(&cur.tu)
+                .map(|(u, t)| u + sigma * t)
+                .collect();
+            let mut p = cur.p + sigma * cur.tp;
+            let (_, res) = tr.correct(&mut u, &mut p, &cur.tu, cur.tp).ok()?;
+            let m = tr.problem.margin(&u);
+            Some((u, p, m, res))
+        };
+        let (mut a, mut fa) = (0.0, self.problem.margin(&cur.u));
+        let (mut b, mut fb) = (ds, point_at(self, ds)?.2);
+        if !(fa >= 0.0 && fb < 0.0) {
+            return None;
+        }
+        let mut best = None;
+        let mut side = 0;
+        for _ in 0..80 {
+            let c = if fa.is_finite() && fb.is_finite() && fa != fb {
+                (a * fb - b * fa) / (fb - fa)
+            } else {
+                0.5 * (a + b)
+            };
+            let c = if c > a && c < b { c } else { 0.5 * (a + b) };
+            let (u, p, fc, res) = point_at(self, c)?;
+            // keep the last point inside (margin >= 0) as the event
+            if fc >= 0.0 {
+                best = Some((u, p, res));
+                a = c;
+                fa = fc;
+                if side == 1 {
+                    fb *= 0.5;
+                }
+                side = 1;
+            } else {
+                b = c;
+                fb = fc;
+                if side == -1 {
+                    fa *= 0.5;
+                }
+                side = -1;
+            }
+            if fc.abs() < 1e-10 || b - a < 1e-13 * ds.max(1.0) {
+                break;
+            }
+        }
+        let (u, p, res) = best?;
+        let (tu, tp) = self.tangent(&u, p, &cur.tu, cur.tp).ok()?;
+        Some(self.make_point(u, p, tu, tp, res))
     }
 
     /// Crosses a kink of the residual ahead of `cur`: locates where the

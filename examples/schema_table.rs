@@ -1,3 +1,0 @@
-fn main() {
-    print!("{}", icefold::io::scenario::Scenario::schema_markdown());
-}

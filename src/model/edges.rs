@@ -1,0 +1,1052 @@
+//! The annual-mean step-albedo model with its ice edges as unknowns.
+//!
+//! With the step albedo (Budyko 1969) the surface is a sequence of regions of
+//! one type, open or ice, separated by ice edges e_1 < … < e_k where the
+//! temperature crosses the threshold T_s. Here each edge is an unknown. The
+//! domain [x0, 1] (x0 = 0 on a symmetric grid, -1 on a full one) is covered
+//! by one computational grid of n cells, mapped piecewise onto the regions:
+//! region r always holds the same c_r cells and the edges sit on fixed
+//! faces, so the faces move with the edges and no cell ever changes type.
+//! The map from cell index ξ to the spacing's coordinate s (x, or the
+//! latitude) is a monotone C¹ cubic Hermite spline through the knots
+//! (ξ_r, s(e_r)), with the slope at an edge the harmonic mean of the mean
+//! cell widths of the two regions beside it, so the grid is smoothly graded
+//! and depends smoothly on the edges.
+//!
+//! Unknowns u = (T_1 … T_n, e_1 … e_k); equations
+//!
+//! ```text
+//! F_i = Q ā_i - OLR(T_i) + (∇·F)_i = 0                      (each cell)
+//! g_j = T(e_j) - T_s = 0                                      (each edge)
+//! ```
+//!
+//! where ā_i is the cell mean of s(x)(1 - α(x)) with the albedo of the cell's
+//! region (open: α = open + open_p2 P2(x), North et al. 1981; ice: α_ice),
+//! the transport is the finite-volume diffusion D d/dx[(1 - x²) dT/dx]
+//! (North 1975) or the relaxation γ (T̄ - T) (Budyko 1969), and T(e_j) is the
+//! temperature at the edge face: linear interpolation between the two cell
+//! centres beside it for diffusion (T and its flux are continuous there), the
+//! mean of both one-sided limits for relaxation (the published convention of
+//! Budyko's model, where T jumps at the edge; each side extrapolated
+//! linearly from its two nearest cells). Inside one topology the residual is
+//! smooth in u and in every parameter: no kinks, and edges and folds
+//! converge at second order with the cell count.
+//!
+//! Each cell balance is weighted by its width relative to a plain band,
+//! w_i n / (1 - x0) (its share of the energy budget): on the plain grid the
+//! weights are 1, and the balances of the tiny cells of a vanishing region
+//! are not swamped by rounding. The weights make the temperature block
+//! symmetric and change neither the solutions nor the stability.
+//!
+//! Jacobian: the temperature block is tridiagonal (plus a rank-one term for
+//! relaxation), bordered by one dense column per edge (∂F/∂e_j, by central
+//! differences of the residual: every face moves with an edge) and one
+//! sparse row per edge (∂g_j/∂T). It is solved by block elimination in
+//! O(n k): Y = A⁻¹C, S = D - R Y (k × k), then x = A⁻¹b - Y S⁻¹(b_e - R A⁻¹b).
+//!
+//! Stability. The edges carry no heat capacity: linearised, C λ δT =
+//! A δT + C' δe, 0 = R δT + D' δe in physical coordinates (δT at fixed x),
+//! where D' = diag(dT/dx at each edge). The temperature block A is negative
+//! definite (OLR grows with T, diffusion and relaxation dissipate), and each
+//! edge adds a symmetric positive rank-one term (the albedo jump at the edge,
+//! -C' = R^T K D' with K > 0), so the number of unstable modes is the number
+//! of negative eigenvalues of S D'^{-1}, where S is the Schur complement
+//! above (invariant under the change from mapped to physical coordinates).
+//! For one edge: unstable iff S / T'(e) < 0; in the linear diffusive model
+//! this is the slope-stability theorem (Cahalan & North 1979, J. Atmos. Sci.
+//! 36, 1178), which the tests check.
+
+use crate::model::Model;
+use crate::model::climate::{Diagnostics, State, classify_ice, hemisphere_ice_edges};
+use crate::numerics::grid::{Grid, Spacing};
+use crate::numerics::linalg::{Singular, Tridiagonal};
+use crate::physics::albedo::AlbedoKind;
+use crate::physics::insolation::{Insolation, InsolationLaw, InsolationTable};
+use crate::physics::radiation::Olr;
+use crate::physics::transport::Transport;
+
+/// The surface type of a region.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum Surface {
+    /// Open surface (ocean or land).
+    Open,
+    /// Ice.
+    Ice,
+}
+
+/// An ice topology: the surface types of the regions from the domain's low
+/// end (the equator on a symmetric grid, the south pole on a full one) to
+/// the north pole, alternating.
+#[derive(Clone, Debug, PartialEq, Eq, Hash)]
+pub struct Topology {
+    /// Regions, low end first.
+    pub regions: Vec<Surface>,
+}
+
+impl Topology {
+    /// Every topology with at most `max_edges` edges.
+    pub fn all(max_edges: usize) -> Vec<Topology> {
+        let mut out = Vec::new();
+        for k in 0..=max_edges {
+            for first in [Surface::Open, Surface::Ice] {
+                let regions = (0..=k)
+                    .map(|r| if r % 2 == 0 { first } else { other(first) })
+                    .collect();
+                out.push(Topology { regions });
+            }
+        }
+        out
+    }
+
+    /// The topology of ascending ice intervals on [x0, 1].
+    pub fn of_intervals(intervals: &[(f64, f64)], x0: f64) -> (Topology, Vec<f64>) {
+        let tiny = 1e-12;
+        let mut regions = Vec::new();
+        let mut edges = Vec::new();
+        let mut at = x0;
+        for &(a, b) in intervals {
+            if a > at + tiny {
+                regions.push(Surface::Open);
+                edges.push(a);
+            }
+            regions.push(Surface::Ice);
+            if b < 1.0 - tiny {
+                edges.push(b);
+            }
+            at = b;
+        }
+        if regions.is_empty() || at < 1.0 - tiny {
+            regions.push(Surface::Open);
+        }
+        (Topology { regions }, edges)
+    }
+
+    /// Number of edges.
+    pub fn edges(&self) -> usize {
+        self.regions.len().saturating_sub(1)
+    }
+
+    /// A short name, e.g. `open|ice` (low end first).
+    pub fn name(&self) -> String {
+        self.regions
+            .iter()
+            .map(|s| match s {
+                Surface::Open => "open",
+                Surface::Ice => "ice",
+            })
+            .collect::<Vec<_>>()
+            .join("|")
+    }
+}
+
+fn other(s: Surface) -> Surface {
+    match s {
+        Surface::Open => Surface::Ice,
+        Surface::Ice => Surface::Open,
+    }
+}
+
+/// A knot of the mapped grid: a domain end, an edge, or the equator of a
+/// full grid inside a region that spans it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Knot {
+    Low,
+    High,
+    Equator,
+    Edge(usize),
+}
+
+/// Why the edge formulation does not apply.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum EdgeError {
+    /// The model is not the annual-mean step-albedo model.
+    #[error("the ice edge as an unknown needs {0}")]
+    Unsupported(&'static str),
+}
+
+/// A layout of the mapped grid that cannot be built (edges out of order or
+/// outside the domain).
+const INVALID: f64 = 1e30;
+
+/// The step-albedo model with ice edges as unknowns, on one topology.
+#[derive(Clone)]
+pub struct EdgeModel {
+    /// The model whose planet holds every parameter.
+    pub model: Model,
+    topology: Topology,
+    /// Cells of each segment: a region, or half of one where a region spans
+    /// the equator of a full grid (split there by a fixed knot).
+    counts: Vec<usize>,
+    /// Region of each segment.
+    seg_region: Vec<usize>,
+    /// Face index of each knot (0, the edges and the equator, n).
+    knots: Vec<usize>,
+    /// What each knot is.
+    knot_kind: Vec<Knot>,
+    /// Face index of each edge.
+    edge_face: Vec<usize>,
+    n: usize,
+    x0: f64,
+    table: InsolationTable,
+    table_key: (f64, f64, f64, InsolationLaw),
+    faces: Vec<f64>,
+    centres: Vec<f64>,
+    widths: Vec<f64>,
+    /// Cell means of s (1 - α) and of s, per unit flux.
+    coalb: Vec<f64>,
+    ins: Vec<f64>,
+    valid: bool,
+    // Jacobian pieces
+    jac: Tridiagonal,
+    /// ∂(F, g)/∂e_j, column j at [j (n + k) ..].
+    cols: Vec<f64>,
+    /// ∂g_j/∂T, row j at [j n ..].
+    rows: Vec<f64>,
+    /// A⁻¹ C (temperature part of each column), column j at [j n ..].
+    y: Vec<f64>,
+    /// Schur complement S = D - R A⁻¹ C and its inverse, k × k row-major.
+    schur: Vec<f64>,
+    schur_inv: Vec<f64>,
+    fa: Vec<f64>,
+    fb: Vec<f64>,
+    edges: Vec<f64>,
+    ones: Vec<f64>,
+    /// n / (1 - x0): the cell balances are weighted by w_i n / (1 - x0).
+    per_width: f64,
+    floor: f64,
+}
+
+/// Cells of the mapped grid per band of the scenario: the edge model keeps
+/// a third of a hemisphere's cells in a cap however small, so it solves on
+/// twice the scenario's resolution and reports on its bands.
+pub const REFINE: usize = 4;
+
+/// Step for the central differences in the edges, as a fraction of the
+/// narrower region beside the edge (capped at 1e-6 in x).
+const EDGE_STEP: f64 = 1e-4;
+
+impl EdgeModel {
+    /// The edge formulation of `model` on `topology`, with [`REFINE`] cells
+    /// per band of the model. Needs the step albedo and positive diffusive or
+    /// relaxation transport, and at least three cells per region.
+    pub fn new(model: &Model, topology: Topology) -> Result<EdgeModel, EdgeError> {
+        let pl = &model.planet;
+        if !matches!(pl.albedo.kind, AlbedoKind::Step) {
+            return Err(EdgeError::Unsupported(
+                "the step albedo (albedo.kind = \"step\")",
+            ));
+        }
+        match pl.transport {
+            Transport::Diffusive { diffusivity } if diffusivity > 0.0 => {}
+            Transport::Relaxation { rate } if rate > 0.0 => {}
+            _ => return Err(EdgeError::Unsupported("positive heat transport")),
+        }
+        let n = REFINE * model.len();
+        let r = topology.regions.len();
+        if r > 3 {
+            return Err(EdgeError::Unsupported("at most two ice edges"));
+        }
+        if r == 0 || n < 3 * r {
+            return Err(EdgeError::Unsupported("at least three bands per region"));
+        }
+        let x0 = model.grid.faces[0];
+        // regions ending at a pole get weight 1, the others 2 (4 where they
+        // span the equator of a full grid): a polar cap holds a third of its
+        // hemisphere's cells, the equatorward region two thirds
+        let w: Vec<usize> = (0..r)
+            .map(|i| {
+                let touches_pole = i + 1 == r || (i == 0 && x0 < 0.0);
+                let spans_equator = x0 < 0.0 && i > 0 && i + 1 < r;
+                if touches_pole {
+                    1
+                } else if spans_equator {
+                    4
+                } else {
+                    2
+                }
+            })
+            .collect();
+        let total: usize = w.iter().sum();
+        let mut counts: Vec<usize> = w.iter().map(|wi| (n * wi / total).max(3)).collect();
+        let sum: usize = counts.iter().sum();
+        let big = (0..r).max_by_key(|&i| counts[i]).unwrap_or(0);
+        counts[big] = (counts[big] + n).saturating_sub(sum);
+        if counts.iter().sum::<usize>() != n || counts.iter().any(|&c| c < 3) {
+            return Err(EdgeError::Unsupported("at least three bands per region"));
+        }
+        // segments: a region spanning the equator of a full grid is split
+        // there, half its cells on each side
+        let mut seg_counts = Vec::new();
+        let mut seg_region = Vec::new();
+        let mut knot_kind = vec![Knot::Low];
+        for (i, &c) in counts.iter().enumerate() {
+            let spans_equator = x0 < 0.0 && i > 0 && i + 1 < r;
+            if spans_equator {
+                seg_counts.extend([c / 2, c - c / 2]);
+                seg_region.extend([i, i]);
+                knot_kind.push(Knot::Equator);
+            } else {
+                seg_counts.push(c);
+                seg_region.push(i);
+            }
+            knot_kind.push(if i + 1 < r { Knot::Edge(i) } else { Knot::High });
+        }
+        if seg_counts.iter().any(|&c| c < 3) {
+            return Err(EdgeError::Unsupported("at least three bands per region"));
+        }
+        let mut knots = vec![0];
+        for c in &seg_counts {
+            knots.push(knots.last().copied().unwrap_or(0) + c);
+        }
+        let edge_face: Vec<usize> = knot_kind
+            .iter()
+            .zip(&knots)
+            .filter(|(k, _)| matches!(k, Knot::Edge(_)))
+            .map(|(_, f)| *f)
+            .collect();
+        let counts = seg_counts;
+        let k = r - 1;
+        let mut unit = pl.orbit;
+        unit.flux = 1.0;
+        let table = InsolationTable::new(&Insolation::new(unit, pl.insolation), 1024);
+        let mut jac = Tridiagonal::new(n);
+        if let Transport::Relaxation { .. } = pl.transport {
+            jac.rank_one = Some((vec![0.0; n], vec![0.0; n]));
+        }
+        Ok(EdgeModel {
+            model: model.clone(),
+            topology,
+            counts,
+            seg_region,
+            knots,
+            knot_kind,
+            edge_face,
+            n,
+            x0,
+            table,
+            table_key: insolation_key(model),
+            faces: vec![0.0; n + 1],
+            centres: vec![0.0; n],
+            widths: vec![0.0; n],
+            coalb: vec![0.0; n],
+            ins: vec![0.0; n],
+            valid: false,
+            jac,
+            cols: vec![0.0; (n + k) * k],
+            rows: vec![0.0; k * n],
+            y: vec![0.0; n * k],
+            schur: vec![0.0; k * k],
+            schur_inv: vec![0.0; k * k],
+            fa: vec![0.0; n + k],
+            fb: vec![0.0; n + k],
+            edges: vec![0.0; k],
+            ones: vec![1.0; n],
+            per_width: n as f64 / (1.0 - x0),
+            floor: 0.0,
+        })
+    }
+
+    /// The topology.
+    pub fn topology(&self) -> &Topology {
+        &self.topology
+    }
+
+    /// Number of cells n.
+    pub fn cells(&self) -> usize {
+        self.n
+    }
+
+    /// Number of unknowns n + k.
+    pub fn dim(&self) -> usize {
+        self.n + self.topology.edges()
+    }
+
+    /// Number of edges k.
+    pub fn edge_count(&self) -> usize {
+        self.topology.edges()
+    }
+
+    /// The low end of the domain (0 or -1).
+    pub fn low_end(&self) -> f64 {
+        self.x0
+    }
+
+    /// Rebuilds the insolation table if an orbital parameter changed.
+    pub fn refresh(&mut self) {
+        let key = insolation_key(&self.model);
+        if key != self.table_key {
+            let mut unit = self.model.planet.orbit;
+            unit.flux = 1.0;
+            self.table =
+                InsolationTable::new(&Insolation::new(unit, self.model.planet.insolation), 1024);
+            self.table_key = key;
+        }
+    }
+
+    fn coord(&self, x: f64) -> f64 {
+        match self.model.grid.spacing {
+            Spacing::Sine => x,
+            Spacing::Latitude => x.clamp(-1.0, 1.0).asin(),
+        }
+    }
+
+    fn uncoord(&self, s: f64) -> f64 {
+        match self.model.grid.spacing {
+            Spacing::Sine => s,
+            Spacing::Latitude => s.sin(),
+        }
+    }
+
+    /// Lays the mapped grid for `edges` (ascending, inside the domain);
+    /// marks the layout invalid otherwise.
+    fn layout(&mut self, edges: &[f64]) {
+        let segs = self.counts.len();
+        let mut ks = [0.0; 6];
+        for (i, v) in ks.iter_mut().enumerate().take(segs + 1) {
+            *v = match self.knot_kind[i] {
+                Knot::Low => self.coord(self.x0),
+                Knot::High => self.coord(1.0),
+                Knot::Equator => 0.0,
+                Knot::Edge(j) => self.coord(edges[j]),
+            };
+        }
+        let knot_s = |i: usize| ks[i];
+        self.valid = true;
+        let mut prev = knot_s(0);
+        for i in 1..=segs {
+            let s = knot_s(i);
+            if s.partial_cmp(&prev) != Some(std::cmp::Ordering::Greater) || !s.is_finite() {
+                self.valid = false;
+                return;
+            }
+            prev = s;
+        }
+        for seg in 0..segs {
+            let (sa, sb) = (knot_s(seg), knot_s(seg + 1));
+            let c = self.counts[seg] as f64;
+            let h = (sb - sa) / c;
+            let slope_at = |i: usize| -> f64 {
+                // harmonic mean of the mean widths beside knot i
+                if i == 0 || i == segs {
+                    return h;
+                }
+                let hl = (knot_s(i) - knot_s(i - 1)) / self.counts[i - 1] as f64;
+                let hr = (knot_s(i + 1) - knot_s(i)) / self.counts[i] as f64;
+                2.0 * hl * hr / (hl + hr)
+            };
+            let (ma, mb) = (slope_at(seg) * c, slope_at(seg + 1) * c);
+            let base = self.knots[seg];
+            for i in 0..=self.counts[seg] {
+                let t = i as f64 / c;
+                let (t2, t3) = (t * t, t * t * t);
+                let s = (2.0 * t3 - 3.0 * t2 + 1.0) * sa
+                    + (t3 - 2.0 * t2 + t) * ma
+                    + (-2.0 * t3 + 3.0 * t2) * sb
+                    + (t3 - t2) * mb;
+                self.faces[base + i] = self.uncoord(s);
+            }
+            self.faces[base] = match self.knot_kind[seg] {
+                Knot::Low => self.x0,
+                Knot::Edge(j) => edges[j],
+                _ => self.uncoord(sa),
+            };
+        }
+        self.faces[self.n] = 1.0;
+        let al = self.model.planet.albedo;
+        for seg in 0..segs {
+            let ice = self.topology.regions[self.seg_region[seg]] == Surface::Ice;
+            for i in self.knots[seg]..self.knots[seg + 1] {
+                let (lo, hi) = (self.faces[i], self.faces[i + 1]);
+                let w = hi - lo;
+                if w.is_nan() || w <= 0.0 {
+                    self.valid = false;
+                    return;
+                }
+                self.widths[i] = w;
+                self.centres[i] = match self.model.grid.spacing {
+                    Spacing::Sine => 0.5 * (lo + hi),
+                    Spacing::Latitude => (0.5 * (lo.asin() + hi.asin())).sin(),
+                };
+                let (s0, p0) = self.table.integrals(lo);
+                let (s1, p1) = self.table.integrals(hi);
+                self.ins[i] = (s1 - s0) / w;
+                self.coalb[i] = if ice {
+                    (1.0 - al.ice) * (s1 - s0) / w
+                } else {
+                    ((1.0 - al.open) * (s1 - s0) - al.open_p2 * (p1 - p0)) / w
+                };
+            }
+        }
+    }
+
+    fn olr(&self) -> Olr {
+        Olr {
+            law: self.model.planet.olr,
+            forcing: self.model.forcing(),
+        }
+    }
+
+    /// The temperature at edge j's face and its weights on the cells:
+    /// (value, [(cell, weight); 4]) with unused slots of weight 0.
+    fn edge_value(&self, j: usize, t: &[f64]) -> (f64, [(usize, f64); 4]) {
+        let m = self.edge_face[j];
+        let x = self.faces[m];
+        let c = &self.centres;
+        match self.model.planet.transport {
+            Transport::Relaxation { .. } => {
+                // mean of the one-sided limits, each extrapolated linearly
+                let al = (x - c[m - 1]) / (c[m - 1] - c[m - 2]);
+                let ar = (x - c[m]) / (c[m + 1] - c[m]);
+                let w = [
+                    (m - 2, -0.5 * al),
+                    (m - 1, 0.5 * (1.0 + al)),
+                    (m, 0.5 * (1.0 - ar)),
+                    (m + 1, 0.5 * ar),
+                ];
+                (w.iter().map(|(i, a)| a * t[*i]).sum(), w)
+            }
+            Transport::Diffusive { .. } => {
+                let th = (c[m] - x) / (c[m] - c[m - 1]);
+                let w = [(m - 1, th), (m, 1.0 - th), (m, 0.0), (m, 0.0)];
+                (th * t[m - 1] + (1.0 - th) * t[m], w)
+            }
+        }
+    }
+
+    /// Residual (F, g) at u = (T, e) into `f` (n + k entries), on the
+    /// current layout.
+    fn residual_on_layout(&self, u: &[f64], f: &mut [f64]) {
+        let n = self.n;
+        let k = self.edge_count();
+        if !self.valid {
+            f.fill(INVALID);
+            return;
+        }
+        let t = &u[..n];
+        let q = self.model.planet.orbit.flux;
+        let olr = self.olr();
+        for i in 0..n {
+            f[i] = q * self.coalb[i] - olr.value_and_slope(t[i]).0;
+        }
+        match self.model.planet.transport {
+            Transport::Diffusive { diffusivity } => {
+                for face in 1..n {
+                    let xf = self.faces[face];
+                    let g = diffusivity * (1.0 - xf * xf) * (t[face] - t[face - 1])
+                        / (self.centres[face] - self.centres[face - 1]);
+                    f[face - 1] += g / self.widths[face - 1];
+                    f[face] -= g / self.widths[face];
+                }
+            }
+            Transport::Relaxation { rate } => {
+                let tbar = self.mean(t);
+                for i in 0..n {
+                    f[i] += rate * (tbar - t[i]);
+                }
+            }
+        }
+        for i in 0..n {
+            f[i] *= self.widths[i] * self.per_width;
+        }
+        let ts = self.model.planet.albedo.threshold;
+        for j in 0..k {
+            f[n + j] = self.edge_value(j, t).0 - ts;
+        }
+    }
+
+    fn mean(&self, v: &[f64]) -> f64 {
+        let span = 1.0 - self.x0;
+        self.widths.iter().zip(v).map(|(w, v)| w * v).sum::<f64>() / span
+    }
+
+    /// Residual (F, g) at u into `f`. Allocates nothing.
+    pub fn residual(&mut self, u: &[f64], f: &mut [f64]) {
+        let n = self.n;
+        let mut e = std::mem::take(&mut self.edges);
+        e.copy_from_slice(&u[n..]);
+        self.layout(&e);
+        self.edges = e;
+        self.residual_on_layout(u, f);
+    }
+
+    /// Evaluates the residual into `f` and factors the bordered Jacobian at
+    /// u. Allocates nothing.
+    pub fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular> {
+        let n = self.n;
+        let k = self.edge_count();
+        // edge columns by central differences (every face moves)
+        let mut fa = std::mem::take(&mut self.fa);
+        let mut fb = std::mem::take(&mut self.fb);
+        let mut e = std::mem::take(&mut self.edges);
+        for j in 0..k {
+            e.copy_from_slice(&u[n..]);
+            // the knots beside edge j bound the step
+            let kj = self
+                .knot_kind
+                .iter()
+                .position(|k| *k == Knot::Edge(j))
+                .unwrap_or(1);
+            let at = |i: usize| match self.knot_kind[i] {
+                Knot::Low => self.x0,
+                Knot::High => 1.0,
+                Knot::Equator => 0.0,
+                Knot::Edge(q) => u[n + q],
+            };
+            let room = (u[n + j] - at(kj - 1)).min(at(kj + 1) - u[n + j]);
+            let h = (EDGE_STEP * room).clamp(1e-13, 1e-6);
+            e[j] = u[n + j] + h;
+            self.layout(&e);
+            self.residual_on_layout(u, &mut fa);
+            e[j] = u[n + j] - h;
+            self.layout(&e);
+            self.residual_on_layout(u, &mut fb);
+            for i in 0..n + k {
+                self.cols[j * (n + k) + i] = (fa[i] - fb[i]) / (2.0 * h);
+            }
+        }
+        self.fa = fa;
+        self.fb = fb;
+        e.copy_from_slice(&u[n..]);
+        self.layout(&e);
+        self.edges = e;
+        self.residual_on_layout(u, f);
+        if !self.valid {
+            return Err(Singular { row: 0 });
+        }
+        // temperature block
+        let t = &u[..n];
+        let olr = self.olr();
+        let j = &mut self.jac;
+        let keep = j.rank_one.take();
+        j.clear();
+        j.rank_one = keep;
+        for i in 0..n {
+            j.diag[i] = -olr.value_and_slope(t[i]).1;
+        }
+        match self.model.planet.transport {
+            Transport::Diffusive { diffusivity } => {
+                for face in 1..n {
+                    let xf = self.faces[face];
+                    let c = diffusivity * (1.0 - xf * xf)
+                        / (self.centres[face] - self.centres[face - 1]);
+                    let (wl, wr) = (self.widths[face - 1], self.widths[face]);
+                    j.diag[face - 1] -= c / wl;
+                    j.upper[face - 1] += c / wl;
+                    j.diag[face] -= c / wr;
+                    j.lower[face] += c / wr;
+                }
+            }
+            Transport::Relaxation { rate } => {
+                let span = 1.0 - self.x0;
+                for i in 0..n {
+                    j.diag[i] -= rate;
+                }
+                if let Some((uu, vv)) = j.rank_one.as_mut() {
+                    uu.fill(rate);
+                    for (v, w) in vv.iter_mut().zip(&self.widths) {
+                        *v = w / span;
+                    }
+                }
+            }
+        }
+        for i in 0..n {
+            let w = self.widths[i] * self.per_width;
+            j.diag[i] *= w;
+            j.lower[i] *= w;
+            j.upper[i] *= w;
+        }
+        if let Some((uu, _)) = j.rank_one.as_mut() {
+            for (x, w) in uu.iter_mut().zip(&self.widths) {
+                *x *= w * self.per_width;
+            }
+        }
+        // rounding level of the weighted balances: 8 ulps of the largest
+        // sum of the magnitudes of their terms
+        let q = self.model.planet.orbit.flux;
+        let mut floor = 0.0f64;
+        for i in 0..n {
+            let w = self.widths[i] * self.per_width;
+            let mut m = j.diag[i].abs() * t[i].abs() + w * (q * self.coalb[i]).abs();
+            m += w * olr.value_and_slope(t[i]).0.abs();
+            if i > 0 {
+                m += j.lower[i].abs() * t[i - 1].abs();
+            }
+            if i + 1 < n {
+                m += j.upper[i].abs() * t[i + 1].abs();
+            }
+            floor = floor.max(m);
+        }
+        self.floor = 8.0 * f64::EPSILON * floor;
+        self.jac.factor()?;
+        // rows, A⁻¹C and the Schur complement
+        self.rows.fill(0.0);
+        for jj in 0..k {
+            let (_, w) = self.edge_value(jj, t);
+            for (i, a) in w {
+                self.rows[jj * n + i] += a;
+            }
+        }
+        for jj in 0..k {
+            let (src, dst) = (&self.cols[jj * (n + k)..jj * (n + k) + n], jj * n);
+            self.y[dst..dst + n].copy_from_slice(src);
+            self.jac.solve(&mut self.y[dst..dst + n]);
+        }
+        for a in 0..k {
+            for b in 0..k {
+                let ry: f64 = (0..n)
+                    .map(|i| self.rows[a * n + i] * self.y[b * n + i])
+                    .sum();
+                self.schur[a * k + b] = self.cols[b * (n + k) + n + a] - ry;
+            }
+        }
+        invert_small(&self.schur, &mut self.schur_inv, k)
+    }
+
+    /// The rounding level of max |(F, g)| at the last factored state (8 ulps
+    /// of the largest sum of magnitudes of a weighted balance's terms).
+    pub fn residual_floor(&self) -> f64 {
+        self.floor
+    }
+
+    /// Solves J x = b in place with the last factors.
+    pub fn solve(&self, b: &mut [f64]) {
+        let n = self.n;
+        let k = self.edge_count();
+        let (bt, be) = b.split_at_mut(n);
+        self.jac.solve(bt);
+        let mut rhs = [0.0; 4];
+        for a in 0..k {
+            let rz: f64 = (0..n).map(|i| self.rows[a * n + i] * bt[i]).sum();
+            rhs[a] = be[a] - rz;
+        }
+        for a in 0..k {
+            be[a] = (0..k).map(|c| self.schur_inv[a * k + c] * rhs[c]).sum();
+        }
+        for c in 0..k {
+            let yc = be[c];
+            for i in 0..n {
+                bt[i] -= self.y[c * n + i] * yc;
+            }
+        }
+    }
+
+    /// y = J diag(1, s) v with the last factored Jacobian: the edge part of
+    /// v is multiplied by `edge_scale` first (1 for physical edges).
+    pub fn jac_mul(&self, v: &[f64], y: &mut [f64], edge_scale: f64) {
+        let n = self.n;
+        let k = self.edge_count();
+        self.jac.mul(&v[..n], &mut y[..n]);
+        for a in 0..k {
+            y[n + a] = (0..n).map(|i| self.rows[a * n + i] * v[i]).sum::<f64>();
+        }
+        for c in 0..k {
+            let col = &self.cols[c * (n + k)..(c + 1) * (n + k)];
+            for i in 0..n + k {
+                y[i] += col[i] * v[n + c] * edge_scale;
+            }
+        }
+    }
+
+    /// Number of unstable modes at the last factored state u (see the module
+    /// notes): those of the temperature block plus the negative eigenvalues
+    /// of S D'⁻¹, D' = diag(dT/dx at each edge).
+    pub fn unstable_modes(&self, u: &[f64]) -> usize {
+        let n = self.n;
+        let k = self.edge_count();
+        let base = self.jac.count_positive_eigenvalues(&self.ones).unwrap_or(0);
+        if k == 0 {
+            return base;
+        }
+        let t = &u[..n];
+        let mut e = [0.0; 4];
+        for j in 0..k {
+            let g = self.edge_gradient(j, t);
+            for c in 0..k {
+                e[c * k + j] = self.schur[c * k + j] / g;
+            }
+        }
+        base + negative_eigenvalues(&e[..k * k], k)
+    }
+
+    /// dT/dx at edge j (the mean of the one-sided slopes for relaxation).
+    fn edge_gradient(&self, j: usize, t: &[f64]) -> f64 {
+        let m = self.edge_face[j];
+        let c = &self.centres;
+        match self.model.planet.transport {
+            Transport::Diffusive { .. } => (t[m] - t[m - 1]) / (c[m] - c[m - 1]),
+            Transport::Relaxation { .. } => {
+                0.5 * ((t[m - 1] - t[m - 2]) / (c[m - 1] - c[m - 2])
+                    + (t[m + 1] - t[m]) / (c[m + 1] - c[m]))
+            }
+        }
+    }
+
+    /// How far u is inside its topology: positive while every region is
+    /// wider than 1e-6 of the domain and every cell, and the
+    /// temperature reconstructed at both domain ends, lies on its region's
+    /// side of T_s; zero where a region vanishes or a new one appears.
+    /// Continuous in u, in units of K (region widths scaled by 100 K per
+    /// unit x).
+    pub fn margin(&mut self, u: &[f64]) -> f64 {
+        let n = self.n;
+        let k = self.edge_count();
+        let span = 1.0 - self.x0;
+        let delta = 1e-6 * span;
+        let mut m = f64::INFINITY;
+        let knot_x = |kind: Knot| match kind {
+            Knot::Low => self.x0,
+            Knot::High => 1.0,
+            Knot::Equator => 0.0,
+            Knot::Edge(j) => u[n + j],
+        };
+        for w in self.knot_kind.windows(2) {
+            m = m.min(100.0 * (knot_x(w[1]) - knot_x(w[0]) - delta));
+        }
+        let mut e = std::mem::take(&mut self.edges);
+        e.copy_from_slice(&u[n..]);
+        self.layout(&e);
+        self.edges = e;
+        if !self.valid {
+            return m.min(-1.0);
+        }
+        let ts = self.model.planet.albedo.threshold;
+        let side = |s: Surface| if s == Surface::Open { 1.0 } else { -1.0 };
+        for seg in 0..self.counts.len() {
+            let sg = side(self.topology.regions[self.seg_region[seg]]);
+            for i in self.knots[seg]..self.knots[seg + 1] {
+                m = m.min(sg * (u[i] - ts));
+            }
+        }
+        let t = &u[..n];
+        let lo = self.end_value(t, [0, 1, 2], self.x0);
+        let hi = self.end_value(t, [n - 1, n - 2, n - 3], 1.0);
+        m = m.min(side(self.topology.regions[0]) * (lo - ts));
+        m.min(side(self.topology.regions[k]) * (hi - ts))
+    }
+
+    /// Value at `at` of the quadratic whose averages over the cells `idx`
+    /// are `t[idx]`.
+    fn end_value(&self, t: &[f64], idx: [usize; 3], at: f64) -> f64 {
+        let mut m = [[0.0; 3]; 3];
+        let mut r = [0.0; 3];
+        for (row, &i) in idx.iter().enumerate() {
+            let (a, b) = (self.faces[i] - at, self.faces[i + 1] - at);
+            let w = b - a;
+            m[row] = [
+                1.0,
+                (b * b - a * a) / (2.0 * w),
+                (b * b * b - a * a * a) / (3.0 * w),
+            ];
+            r[row] = t[i];
+        }
+        let det = |m: &[[f64; 3]; 3]| {
+            m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+                - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+                + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
+        };
+        let mut m0 = m;
+        for row in 0..3 {
+            m0[row][0] = r[row];
+        }
+        det(&m0) / det(&m)
+    }
+
+    /// ∂(F, g)/∂(flux) at u: the cell co-albedo insolation, 0 for edges.
+    pub fn d_flux(&mut self, u: &[f64], out: &mut [f64]) {
+        let n = self.n;
+        let mut e = std::mem::take(&mut self.edges);
+        e.copy_from_slice(&u[n..]);
+        self.layout(&e);
+        self.edges = e;
+        for i in 0..n {
+            out[i] = self.coalb[i] * self.widths[i] * self.per_width;
+        }
+        out[n..].fill(0.0);
+    }
+
+    /// A first guess in this topology from band temperatures of `grid` and
+    /// the edges `edges`: the bands interpolated linearly onto the mapped
+    /// cell centres.
+    pub fn guess(&mut self, grid: &Grid, bands: &[f64], edges: &[f64], u: &mut [f64]) -> bool {
+        let n = self.n;
+        self.layout(edges);
+        if !self.valid {
+            return false;
+        }
+        let c = &grid.centres;
+        for i in 0..n {
+            let x = self.centres[i];
+            let j = c.partition_point(|&y| y < x).clamp(1, c.len() - 1);
+            let a = ((x - c[j - 1]) / (c[j] - c[j - 1])).clamp(0.0, 1.0);
+            u[i] = bands[j - 1] + a * (bands[j] - bands[j - 1]);
+        }
+        u[n..].copy_from_slice(edges);
+        true
+    }
+
+    /// The state on the bands of `grid` (the scenario's), conservatively:
+    /// each mapped cell's profile is linear (slope from its neighbours in
+    /// the same region) with the cell's mean, integrated over each band.
+    pub fn to_bands(&mut self, u: &[f64], grid: &Grid) -> Vec<f64> {
+        let n = self.n;
+        let mut e = std::mem::take(&mut self.edges);
+        e.copy_from_slice(&u[n..]);
+        self.layout(&e);
+        self.edges = e;
+        let t = &u[..n];
+        let mut slope = vec![0.0; n];
+        for seg in 0..self.counts.len() {
+            let (a, b) = (self.knots[seg], self.knots[seg + 1]);
+            for i in a..b {
+                let (l, r) = (
+                    if i > a { i - 1 } else { i },
+                    if i + 1 < b { i + 1 } else { i },
+                );
+                if r > l {
+                    slope[i] = (t[r] - t[l]) / (self.centres[r] - self.centres[l]);
+                }
+            }
+        }
+        let mut out = vec![0.0; grid.len()];
+        let mut i = 0;
+        for (band, o) in out.iter_mut().enumerate() {
+            let (ba, bb) = (grid.faces[band], grid.faces[band + 1]);
+            while i + 1 < n && self.faces[i + 1] <= ba {
+                i += 1;
+            }
+            let mut acc = 0.0;
+            let mut j = i;
+            while j < n && self.faces[j] < bb {
+                let (lo, hi) = (self.faces[j].max(ba), self.faces[j + 1].min(bb));
+                if hi > lo {
+                    // ∫ (T_j + slope (x - centroid)) dx, centroid of the cell in x
+                    let xm = 0.5 * (self.faces[j] + self.faces[j + 1]);
+                    let mid = 0.5 * (lo + hi);
+                    acc += (hi - lo) * (t[j] + slope[j] * (mid - xm));
+                }
+                j += 1;
+            }
+            *o = acc / (bb - ba);
+        }
+        out
+    }
+
+    /// Diagnostics of u (exact edges, not from the bands).
+    pub fn diagnostics(&mut self, u: &[f64]) -> Diagnostics {
+        let n = self.n;
+        let k = self.edge_count();
+        let mut f = vec![0.0; n + k];
+        self.residual(u, &mut f);
+        let t = &u[..n];
+        let span = 1.0 - self.x0;
+        let symmetric = self.model.grid.symmetric;
+        let mut intervals = Vec::new();
+        for reg in 0..=k {
+            if self.topology.regions[reg] == Surface::Ice {
+                let a = if reg == 0 { self.x0 } else { u[n + reg - 1] };
+                let b = if reg == k { 1.0 } else { u[n + reg] };
+                intervals.push((a, b));
+            }
+        }
+        let (edges, state) = classify_ice(&intervals, self.x0, 1.0, symmetric);
+        let (north, south) = hemisphere_ice_edges(&intervals, symmetric);
+        let covered: f64 = intervals.iter().map(|(a, b)| b - a).sum();
+        let q = self.model.planet.orbit.flux;
+        let ins = self.mean(&self.ins) * q;
+        let abs = self.mean(&self.coalb) * q;
+        Diagnostics {
+            global_mean_c: self.mean(t),
+            ice_area_fraction: (covered / span).clamp(0.0, 1.0),
+            ice_edges_deg: edges,
+            ice_edge_north_deg: north,
+            ice_edge_south_deg: south,
+            planetary_albedo: if ins > 0.0 { 1.0 - abs / ins } else { 0.0 },
+            state,
+            energy_imbalance: f[..n].iter().sum::<f64>() / n as f64,
+        }
+    }
+
+    /// The kind of climate of this topology (edges inside the domain).
+    pub fn state(&self, u: &[f64]) -> State {
+        let n = self.n;
+        let k = self.edge_count();
+        let mut intervals = Vec::new();
+        for reg in 0..=k {
+            if self.topology.regions[reg] == Surface::Ice {
+                let a = if reg == 0 { self.x0 } else { u[n + reg - 1] };
+                let b = if reg == k { 1.0 } else { u[n + reg] };
+                intervals.push((a, b));
+            }
+        }
+        classify_ice(&intervals, self.x0, 1.0, self.model.grid.symmetric).1
+    }
+}
+
+fn insolation_key(model: &Model) -> (f64, f64, f64, InsolationLaw) {
+    let o = model.planet.orbit;
+    (
+        o.obliquity,
+        o.eccentricity,
+        o.perihelion,
+        model.planet.insolation,
+    )
+}
+
+/// Inverse of a k × k matrix (k ≤ 4) by Gauss-Jordan with partial pivoting.
+fn invert_small(a: &[f64], inv: &mut [f64], k: usize) -> Result<(), Singular> {
+    let mut m = [0.0; 16];
+    let mut r = [0.0; 16];
+    for i in 0..k {
+        for j in 0..k {
+            m[i * k + j] = a[i * k + j];
+            r[i * k + j] = if i == j { 1.0 } else { 0.0 };
+        }
+    }
+    let scale = a.iter().fold(0.0f64, |s, x| s.max(x.abs())).max(1e-300);
+    for col in 0..k {
+        let p = (col..k)
+            .max_by(|&x, &y| m[x * k + col].abs().total_cmp(&m[y * k + col].abs()))
+            .unwrap_or(col);
+        let pivot = m[p * k + col].abs();
+        if pivot.is_nan() || pivot <= 1e-14 * scale {
+            return Err(Singular { row: col });
+        }
+        for j in 0..k {
+            m.swap(col * k + j, p * k + j);
+            r.swap(col * k + j, p * k + j);
+        }
+        let d = m[col * k + col];
+        for j in 0..k {
+            m[col * k + j] /= d;
+            r[col * k + j] /= d;
+        }
+        for i in 0..k {
+            if i != col {
+                let f = m[i * k + col];
+                for j in 0..k {
+                    m[i * k + j] -= f * m[col * k + j];
+                    r[i * k + j] -= f * r[col * k + j];
+                }
+            }
+        }
+    }
+    inv[..k * k].copy_from_slice(&r[..k * k]);
+    Ok(())
+}
+
+/// Number of eigenvalues with negative real part of a k × k matrix, k ≤ 2.
+fn negative_eigenvalues(e: &[f64], k: usize) -> usize {
+    match k {
+        1 => usize::from(e[0] < 0.0),
+        _ => {
+            let (tr, det) = (e[0] + e[3], e[0] * e[3] - e[1] * e[2]);
+            if det < 0.0 {
+                1
+            } else if tr < 0.0 {
+                2
+            } else {
+                0
+            }
+        }
+    }
+}

@@ -1,0 +1,84 @@
+//! Branches traced with the ice edges as unknowns against North's (1975,
+//! J. Atmos. Sci. 32, 2033) closed form (`tests/common/reference.rs`), with
+//! the parameters of North, Cahalan & Coakley (1981, Rev. Geophys. 19, 91;
+//! from memory): the four folds of the classic model, their convergence,
+//! and no spurious turning points.
+mod common;
+
+use common::reference::{DiffusiveParams, north_fold, north_ice_free, north_small_cap_fold};
+use icefold::analysis::branches::{Hysteresis, TraceOptions, trace_all};
+use icefold::model::Param;
+
+/// Closed-form corners (North 1975): the ice-free state's pole and the
+/// snowball's equator reach T_s.
+fn closed_corners(p: &DiffusiveParams) -> (f64, f64) {
+    let r = p.t_s + p.a / p.b;
+    let uo1 = north_ice_free(p, 1.0, 1.0) + p.a / p.b;
+    let ui0 = p.b0 / p.b - 0.5 * p.b0 * p.s2 / (p.b + 6.0 * p.d);
+    (r / uo1, r / ui0)
+}
+
+fn trace(bands: usize, spacing: &str, symmetric: bool) -> Hysteresis {
+    let m = common::classic(&[
+        &format!("grid.symmetric={symmetric}"),
+        &format!("grid.bands={bands}"),
+        &format!("grid.spacing=\"{spacing}\""),
+    ]);
+    trace_all(
+        &m,
+        Param::Flux,
+        1100.0,
+        1900.0,
+        30.0,
+        -40.0,
+        &TraceOptions::default(),
+        &mut |_| {},
+    )
+}
+
+/// Fold fluxes in ascending order.
+fn folds(h: &Hysteresis) -> Vec<f64> {
+    let mut f: Vec<f64> = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter().map(|f| f.point.p))
+        .collect();
+    f.sort_by(f64::total_cmp);
+    f
+}
+
+/// Relative errors (large cap, ice-free onset, small cap, snowball melt)
+/// in Q = S0/4.
+fn errors(bands: usize, spacing: &str, symmetric: bool) -> [f64; 4] {
+    let p = DiffusiveParams::north_1981();
+    let (_, q_large) = north_fold(&p);
+    let (_, q_small) = north_small_cap_fold(&p).expect("a small-cap fold");
+    let (q_free, q_melt) = closed_corners(&p);
+    let h = trace(bands, spacing, symmetric);
+    let f = folds(&h);
+    assert_eq!(f.len(), 4, "{bands} {spacing} {symmetric}: folds {f:?}");
+    let rel = |got: f64, want: f64| (got / 4.0 - want).abs() / want;
+    [
+        rel(f[0], q_large),
+        rel(f[1], q_free),
+        rel(f[2], q_small),
+        rel(f[3], q_melt),
+    ]
+}
+
+#[test]
+fn four_folds_within_1e4_at_90_bands() {
+    for (spacing, symmetric) in [("sine", true), ("latitude", true), ("sine", false)] {
+        let e = errors(90, spacing, symmetric);
+        eprintln!("{spacing} symmetric={symmetric} 90 bands: relative errors {e:?}");
+        for (name, err) in ["large cap", "ice-free onset", "small cap", "snowball melt"]
+            .iter()
+            .zip(e)
+        {
+            assert!(
+                err < 1e-4,
+                "{spacing} {symmetric}: {name} relative error {err:e}"
+            );
+        }
+    }
+}
