@@ -63,6 +63,10 @@ impl Problem for AnnualProblem {
     fn solve(&self, b: &mut [f64]) {
         self.jac.solve(b);
     }
+    fn solve_transpose(&self, b: &mut [f64]) -> bool {
+        self.jac.solve_transpose(b);
+        true
+    }
     fn jac_mul(&self, v: &[f64], y: &mut [f64]) {
         self.jac.mul(v, y);
     }
