@@ -2,6 +2,7 @@
 //! seeds from several starts and parameter values, continuation of each
 //! distinct branch, folds with the jump they cause, and bistable windows.
 
+use crate::analysis::sensitivity::fold_sensitivities;
 use crate::model::climate::{Diagnostics, Start, State, diagnose, standard_starts};
 use crate::model::{Model, Param};
 use crate::numerics::continuation::{Branch, EndReason, Problem, Settings, Tracer};
@@ -120,6 +121,12 @@ pub struct Fold {
     /// The stable climate reached when the parameter passes the fold, if
     /// the fold bounds a stable segment.
     pub jump_to: Option<TracedPoint>,
+    /// dλ*/dq = -(w·F_q)/(w·F_λ) of the fold for every other continuous
+    /// parameter q of the model ([`crate::analysis::sensitivity`]), in the
+    /// order of [`Param::ALL`]; empty when not computed.
+    pub sensitivities: Vec<(Param, f64)>,
+    /// Why `sensitivities` is empty, when it is.
+    pub sensitivity_error: Option<String>,
 }
 
 /// One traced branch.
@@ -336,11 +343,18 @@ pub fn trace_all(
                 f.point.unstable_modes,
                 f.point.residual,
             );
+            let (sensitivities, sensitivity_error) =
+                match fold_sensitivities(&mut problem, &f.point.u, f.point.p) {
+                    Ok(s) => (s, None),
+                    Err(e) => (Vec::new(), Some(e)),
+                };
             folds.push(Fold {
                 point: fp,
                 after: f.after,
                 from_state: State::Other,
                 jump_to: None,
+                sensitivities,
+                sensitivity_error,
             });
         }
         branches.push(TracedBranch {
