@@ -117,7 +117,7 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
     assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes\n"));
     let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
-    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state\n"));
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }
@@ -145,6 +145,27 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
         "edge family {large} vs traced {traced}"
     );
     assert!(stdout.contains("edge-family folds"), "{stdout}");
+    // every fold has its sensitivities or says why not (no NaN anywhere)
+    for fold in summary["folds"].as_array().unwrap() {
+        match &fold["sensitivities"] {
+            serde_json::Value::Null => {
+                assert!(
+                    fold["sensitivities_error"]
+                        .as_str()
+                        .is_some_and(|e| !e.is_empty())
+                )
+            }
+            serde_json::Value::Object(m) => {
+                assert!(m.values().all(|v| v.as_f64().is_some_and(f64::is_finite)));
+                assert!(fold["sensitivities_error"].is_null());
+            }
+            other => panic!("sensitivities: {other}"),
+        }
+    }
+    assert_eq!(
+        summary["sensitivity_units"]["orbit.obliquity"],
+        "W m-2 / degree"
+    );
     // the default range ends while the snowball is still stable: said plainly
     assert!(stdout.contains("open: still bistable at --to"), "{stdout}");
     let w = &summary["bistable_windows"][0];
@@ -240,4 +261,54 @@ fn completions_for_each_shell() {
     }
     let (code, _, stderr) = icefold(&["completions", "tcsh"]);
     assert_eq!(code, 2, "{stderr}");
+}
+
+/// The classic scenario's large-cap fold is smooth: folds.csv and
+/// summary.json carry the same sensitivities, the continued parameter has
+/// none, and the CO2 one obeys the structure of the linear model
+/// (dS/dC = -(5.35/C) dS/dA: CO2 only shifts A; from the structure of the
+/// linear model, Myhre et al. 1998 forcing).
+#[test]
+fn trace_writes_fold_sensitivities() {
+    let d = temp_dir("trace-sens");
+    let scenario = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/classic.toml");
+    let (code, _, stderr) = icefold(&[
+        "trace",
+        scenario,
+        "--from",
+        "1100",
+        "--to",
+        "1300",
+        "--quiet",
+        "--out",
+        d.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    let csv = std::fs::read_to_string(d.join("folds.csv")).unwrap();
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let row: Vec<&str> = lines.next().expect("one fold").split(',').collect();
+    assert!(!header.contains(&"d_orbit_flux"), "{header:?}");
+    let cell = |name: &str| -> f64 {
+        let k = header.iter().position(|h| *h == name).unwrap();
+        row[k].parse().unwrap()
+    };
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap();
+    let s = &summary["folds"][0]["sensitivities"];
+    assert!(s.get("orbit.flux").is_none());
+    for key in [
+        "radiation.a",
+        "radiation.co2_ppm",
+        "albedo.ice",
+        "transport.diffusivity",
+    ] {
+        let col = format!("d_{}", key.replace('.', "_"));
+        assert_eq!(cell(&col), s[key].as_f64().unwrap(), "{key}");
+    }
+    let (da, dc) = (cell("d_radiation_a"), cell("d_radiation_co2_ppm"));
+    assert!(
+        (dc + 5.35 / 280.0 * da).abs() < 1e-9 * dc.abs(),
+        "{dc} vs {da}"
+    );
 }

@@ -2,6 +2,7 @@
 //! seeds from several starts and parameter values, continuation of each
 //! distinct branch, folds with the jump they cause, and bistable windows.
 
+use crate::analysis::sensitivity::fold_sensitivities;
 use crate::model::climate::{Diagnostics, Start, State, diagnose, standard_starts};
 use crate::model::{Model, Param};
 use crate::numerics::continuation::{Branch, EndReason, Problem, Settings, Tracer};
@@ -64,6 +65,10 @@ impl Problem for AnnualProblem {
     fn solve(&self, b: &mut [f64]) {
         self.jac.solve(b);
     }
+    fn solve_transpose(&self, b: &mut [f64]) -> bool {
+        self.jac.solve_transpose(b);
+        true
+    }
     fn jac_mul(&self, v: &[f64], y: &mut [f64]) {
         self.jac.mul(v, y);
     }
@@ -117,6 +122,12 @@ pub struct Fold {
     /// The stable climate reached when the parameter passes the fold, if
     /// the fold bounds a stable segment.
     pub jump_to: Option<TracedPoint>,
+    /// dλ*/dq = -(w·F_q)/(w·F_λ) of the fold for every other continuous
+    /// parameter q of the model ([`crate::analysis::sensitivity`]), in the
+    /// order of [`Param::ALL`]; empty when not computed.
+    pub sensitivities: Vec<(Param, f64)>,
+    /// Why `sensitivities` is empty, when it is.
+    pub sensitivity_error: Option<String>,
 }
 
 /// One traced branch.
@@ -341,11 +352,18 @@ pub fn trace_all(
                 f.point.unstable_modes,
                 f.point.residual,
             );
+            let (sensitivities, sensitivity_error) =
+                match fold_sensitivities(&mut problem, &f.point.u, f.point.p) {
+                    Ok(s) => (s, None),
+                    Err(e) => (Vec::new(), Some(e)),
+                };
             folds.push(Fold {
                 point: fp,
                 after: f.after,
                 from_state: State::Other,
                 jump_to: None,
+                sensitivities,
+                sensitivity_error,
             });
         }
         branches.push(TracedBranch {

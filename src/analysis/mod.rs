@@ -1,12 +1,14 @@
 //! The researcher's questions built on the models: every branch of
 //! equilibria and its folds ([`branches`]), regime maps over two parameters
-//! ([`sweep`]), folds continued in two parameters ([`foldcurve`]) and
-//! periodic climates by shooting ([`periodic`]), and every equilibrium of the
-//! linear step-albedo model parametrised by its ice edge ([`skeleton`]).
+//! ([`sweep`]), folds continued in two parameters ([`foldcurve`]),
+//! periodic climates by shooting ([`periodic`]), every equilibrium of the
+//! linear step-albedo model parametrised by its ice edge ([`skeleton`]), and
+//! how far each fold moves with every other parameter ([`sensitivity`]).
 
 pub mod branches;
 pub mod edgetrace;
 pub mod foldcurve;
 pub mod periodic;
+pub mod sensitivity;
 pub mod skeleton;
 pub mod sweep;

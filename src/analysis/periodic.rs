@@ -748,6 +748,10 @@ pub fn trace_seasonal(
                 // Fold gained `from_state`)
                 from_state: crate::model::climate::State::Other,
                 jump_to: None,
+                sensitivities: Vec::new(),
+                sensitivity_error: Some(
+                    "fold sensitivities are not computed for periodic (seasonal) climates".into(),
+                ),
             })
             .collect();
         branches.push(TracedBranch {

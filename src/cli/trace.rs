@@ -1,7 +1,8 @@
 //! `icefold trace`: every branch of equilibria in one parameter.
 use super::context::{Args, CliError, load, out_dir, provenance, written_list};
 use super::progress::Progress;
-use crate::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::analysis::branches::{Fold, Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::analysis::sensitivity::other_params;
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::plot::{self, BranchCurve, FoldMark};
 use crate::model::Param;
@@ -181,11 +182,19 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let mut out = OutputSet::new();
     let key = param.key();
     out.add_table(dir.join("branches.csv"), &branches_table(&h))?;
-    out.add_table(dir.join("folds.csv"), &folds_table(&h))?;
+    out.add_table(dir.join("folds.csv"), &folds_table(&h, &model))?;
     let mut summary = provenance(&sc, args);
     summary.insert("vary".into(), key.into());
     summary.insert("range".into(), serde_json::json!([from, to]));
-    summary.insert("folds".into(), folds_json(&h));
+    summary.insert("folds".into(), folds_json(&h, &model));
+    summary.insert(
+        "sensitivity_units".into(),
+        other_params(&model, param)
+            .iter()
+            .map(|&q| (q.key().to_string(), sensitivity_unit(param, q).into()))
+            .collect::<serde_json::Map<_, _>>()
+            .into(),
+    );
     summary.insert(
         "bistable_windows".into(),
         h.bistable
@@ -308,9 +317,40 @@ fn branches_table(h: &Hysteresis) -> Table {
     t
 }
 
-fn folds_table(h: &Hysteresis) -> Table {
+/// The `folds.csv` column of the sensitivity to `q`: `d_` and the key with
+/// dots replaced by underscores (`d_orbit_obliquity`).
+pub fn sensitivity_column(q: Param) -> String {
+    format!("d_{}", q.key().replace('.', "_"))
+}
+
+/// Unit of dλ/dq for a trace in λ: λ's unit per unit of q (UDUNITS style,
+/// e.g. `W m-2 / degree`; just λ's unit when q is dimensionless).
+pub fn sensitivity_unit(traced: Param, q: Param) -> String {
+    let (num, den) = (traced.unit(), q.unit());
+    match (num, den) {
+        (n, d) if n == d => "1".into(),
+        (n, "1") => n.into(),
+        ("1", d) if d.contains(' ') => format!("1 / ({d})"),
+        ("1", d) => format!("1 / {d}"),
+        (n, d) if d.contains(' ') => format!("{n} / ({d})"),
+        (n, d) => format!("{n} / {d}"),
+    }
+}
+
+/// dλ/dq of a fold, if computed (always finite).
+fn fold_sensitivity(f: &Fold, q: Param) -> Option<f64> {
+    f.sensitivities
+        .iter()
+        .find(|s| s.0 == q)
+        .map(|s| s.1)
+        .filter(|v| v.is_finite())
+}
+
+fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
     let key = h.param.key();
-    let mut t = Table::new(&[
+    let params = other_params(model, h.param);
+    let names: Vec<String> = params.iter().map(|&q| sensitivity_column(q)).collect();
+    let mut columns = vec![
         "branch",
         key,
         "global_mean_temperature_c",
@@ -318,11 +358,13 @@ fn folds_table(h: &Hysteresis) -> Table {
         "ice_edge_north_deg",
         "from_state",
         "to_state",
-    ]);
+    ];
+    columns.extend(names.iter().map(String::as_str));
+    let mut t = Table::new(&columns);
     for b in &h.branches {
         for f in &b.folds {
             let d = &f.point.diagnostics;
-            t.push_row(vec![
+            let mut row = vec![
                 Cell::Int(b.id as i64),
                 Cell::Num(f.point.p),
                 Cell::Num(d.global_mean_c),
@@ -335,17 +377,34 @@ fn folds_table(h: &Hysteresis) -> Table {
                         .map_or("none", |j| j.diagnostics.state.label())
                         .into(),
                 ),
-            ]);
+            ];
+            // an empty cell where the sensitivity was not computed
+            row.extend(
+                params
+                    .iter()
+                    .map(|&q| fold_sensitivity(f, q).map_or(Cell::Text(String::new()), Cell::Num)),
+            );
+            t.push_row(row);
         }
     }
     t
 }
 
-fn folds_json(h: &Hysteresis) -> serde_json::Value {
+fn folds_json(h: &Hysteresis, model: &crate::model::Model) -> serde_json::Value {
+    let params = other_params(model, h.param);
     let mut v = Vec::new();
     for b in &h.branches {
         for f in &b.folds {
             let d = &f.point.diagnostics;
+            let sensitivities = if f.sensitivity_error.is_none() {
+                let m: serde_json::Map<String, serde_json::Value> = params
+                    .iter()
+                    .map(|&q| (q.key().to_string(), fold_sensitivity(f, q).into()))
+                    .collect();
+                serde_json::Value::Object(m)
+            } else {
+                serde_json::Value::Null
+            };
             v.push(serde_json::json!({
                 "branch": b.id,
                 "value": f.point.p,
@@ -356,6 +415,8 @@ fn folds_json(h: &Hysteresis) -> serde_json::Value {
                 "from_state": f.from_state.label(),
                 "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
                 "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
+                "sensitivities": sensitivities,
+                "sensitivities_error": f.sensitivity_error,
             }));
         }
     }
@@ -416,6 +477,25 @@ fn hysteresis_figure(
 #[cfg(test)]
 mod tests {
     use super::{decimal, window_open_ends};
+
+    #[test]
+    fn sensitivity_columns_and_units() {
+        use super::{sensitivity_column, sensitivity_unit};
+        use crate::model::Param;
+        assert_eq!(sensitivity_column(Param::Obliquity), "d_orbit_obliquity");
+        assert_eq!(sensitivity_column(Param::Co2), "d_radiation_co2_ppm");
+        assert_eq!(
+            sensitivity_unit(Param::Flux, Param::Obliquity),
+            "W m-2 / degree"
+        );
+        assert_eq!(
+            sensitivity_unit(Param::Flux, Param::Diffusivity),
+            "W m-2 / (W m-2 K-1)"
+        );
+        assert_eq!(sensitivity_unit(Param::Flux, Param::IceAlbedo), "W m-2");
+        assert_eq!(sensitivity_unit(Param::Flux, Param::OlrA), "1");
+        assert_eq!(sensitivity_unit(Param::IceAlbedo, Param::Co2), "1 / ppm");
+    }
 
     #[test]
     fn windows_cut_by_the_range_are_open() {

@@ -37,6 +37,11 @@ pub trait Problem {
     fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular>;
     /// Solves J x = b in place with the last factors.
     fn solve(&self, b: &mut [f64]);
+    /// Solves Jᵀ x = b in place with the last factors; false where the
+    /// problem cannot (b is then left unspecified).
+    fn solve_transpose(&self, _b: &mut [f64]) -> bool {
+        false
+    }
     /// y = J v with the last factored Jacobian.
     fn jac_mul(&self, v: &[f64], y: &mut [f64]);
     /// ∂F/∂p at u.
