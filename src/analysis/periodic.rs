@@ -748,6 +748,8 @@ pub fn trace_seasonal(
                 // Fold gained `from_state`)
                 from_state: crate::model::climate::State::Other,
                 jump_to: None,
+                jump_years: None,
+                jump_note: None,
             })
             .collect();
         branches.push(TracedBranch {

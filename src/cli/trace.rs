@@ -151,6 +151,13 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             &mut progress,
         );
         crate::analysis::branches::resolve_jumps(&mut h.branches, (to - from).abs());
+        for f in h.branches.iter_mut().flat_map(|b| b.folds.iter_mut()) {
+            if f.jump_to.is_some() {
+                f.jump_note = Some(
+                    "seasonal trace: jump_to is the branch-list guess (nearest stable climate beyond the fold in the direction the state was moving), not integrated in time".into(),
+                );
+            }
+        }
         h
     } else {
         trace_all(&model, param, from, to, warm, cold, &opts, &mut progress)
@@ -261,6 +268,12 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
                     .as_ref()
                     .map_or("none", |j| j.diagnostics.state.label())
             );
+            if let Some(y) = f.jump_years.filter(|y| y.is_finite()) {
+                s += &format!("    transition takes {y:.1} years (1% to 99% of the way)\n");
+            }
+            if let Some(note) = &f.jump_note {
+                s += &format!("    note: {note}\n");
+            }
         }
     }
     for &(a, b) in &h.bistable {
@@ -318,6 +331,7 @@ fn folds_table(h: &Hysteresis) -> Table {
         "ice_edge_north_deg",
         "from_state",
         "to_state",
+        "jump_time_yr",
     ]);
     for b in &h.branches {
         for f in &b.folds {
@@ -335,6 +349,9 @@ fn folds_table(h: &Hysteresis) -> Table {
                         .map_or("none", |j| j.diagnostics.state.label())
                         .into(),
                 ),
+                f.jump_years
+                    .filter(|y| y.is_finite())
+                    .map_or(Cell::Text(String::new()), Cell::Num),
             ]);
         }
     }
@@ -356,6 +373,10 @@ fn folds_json(h: &Hysteresis) -> serde_json::Value {
                 "from_state": f.from_state.label(),
                 "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
                 "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
+                "to_ice_edge_north_deg": f.jump_to.as_ref().map(|j| poleward_edge_deg(&j.diagnostics)),
+                "to_value": f.jump_to.as_ref().map(|j| j.p),
+                "jump_years": f.jump_years.filter(|y| y.is_finite()),
+                "jump_note": f.jump_note,
             }));
         }
     }
