@@ -37,7 +37,7 @@ fn trace(m: &Model) -> Hysteresis {
 }
 
 /// The fold whose stable neighbour is in `from` and the stable neighbour.
-fn fold_from<'a>(h: &'a Hysteresis, from: State) -> (&'a TracedBranch, &'a Fold) {
+fn fold_from(h: &Hysteresis, from: State) -> (&TracedBranch, &Fold) {
     h.branches
         .iter()
         .flat_map(|b| b.folds.iter().map(move |f| (b, f)))

@@ -564,3 +564,45 @@ pub fn integrate_jumps(
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::vanishing_mode;
+    use crate::analysis::branches::AnnualProblem;
+    use crate::io::scenario::{DEFAULT_NAME, DEFAULT_SCENARIO, Scenario};
+    use crate::model::Param;
+    use crate::model::climate::{Start, equilibrium_from};
+    use crate::numerics::continuation::{Settings, Tracer};
+    use crate::numerics::newton::NewtonOptions;
+
+    /// At a fold the state part of the branch tangent spans the kernel of J
+    /// (common practice, no source): the inverse-iteration mode is parallel
+    /// to the continuation tangent to 1e-6.
+    #[test]
+    fn vanishing_mode_is_the_fold_tangent() {
+        let mut m = Scenario::parse(DEFAULT_SCENARIO, DEFAULT_NAME, &[])
+            .unwrap()
+            .model();
+        m.set_param(Param::Flux, 1300.0);
+        let start = Start {
+            label: "warm".into(),
+            temperature: vec![20.0; m.len()],
+        };
+        let e = equilibrium_from(&m, &start, &NewtonOptions::default()).unwrap();
+        let mut problem = AnnualProblem::new(m.clone(), Param::Flux);
+        let mut tracer = Tracer::new(&mut problem, Settings::for_range(1100.0, 1500.0));
+        let b = tracer.trace(&e.temperature, 1300.0).unwrap();
+        let f = b
+            .folds
+            .iter()
+            .find(|f| (f.point.p - 1179.64).abs() < 0.1)
+            .expect("large-cap fold");
+        m.set_param(Param::Flux, f.point.p);
+        let v = vanishing_mode(&m, &f.point.u).unwrap();
+        let dot: f64 = v.iter().zip(&f.point.tu).map(|(a, b)| a * b).sum();
+        let nv = v.iter().map(|a| a * a).sum::<f64>().sqrt();
+        let nt = f.point.tu.iter().map(|a| a * a).sum::<f64>().sqrt();
+        let cos = (dot / (nv * nt)).abs();
+        assert!(1.0 - cos < 1e-6, "cos = {cos}");
+    }
+}
