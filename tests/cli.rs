@@ -117,7 +117,7 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
     assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes\n"));
     let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
-    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }
@@ -126,6 +126,13 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     // W m-2 (common practice, no source)
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap();
+    // the integrated jump carries its transition time and no note here
+    let fold0 = &summary["folds"][0];
+    assert!(
+        fold0["jump_years"].as_f64().is_some_and(|y| y > 0.0),
+        "{fold0}"
+    );
+    assert!(fold0["jump_note"].is_null(), "{fold0}");
     let ef = summary["edge_family"]["folds"]
         .as_array()
         .expect("edge_family folds");

@@ -120,7 +120,9 @@ pub struct Fold {
     /// neighbour on the branch; the fold's own state if neither is stable).
     pub from_state: State,
     /// The stable climate reached when the parameter passes the fold, if
-    /// the fold bounds a stable segment.
+    /// the fold bounds a stable segment. For annual-mean traces, the
+    /// equilibrium reached by integrating the time-dependent model past the
+    /// fold ([`crate::analysis::jumps::integrate_jumps`]).
     pub jump_to: Option<TracedPoint>,
     /// dλ*/dq = -(w·F_q)/(w·F_λ) of the fold for every other continuous
     /// parameter q of the model ([`crate::analysis::sensitivity`]), in the
@@ -128,6 +130,15 @@ pub struct Fold {
     pub sensitivities: Vec<(Param, f64)>,
     /// Why `sensitivities` is empty, when it is.
     pub sensitivity_error: Option<String>,
+    /// Transition time of the integrated jump, years
+    /// ([`crate::analysis::jumps::JumpOutcome::years`]); `None` when not
+    /// integrated.
+    pub jump_years: Option<f64>,
+    /// Set when the jump needs a reader's attention: the integrated target
+    /// lies on no traced stable branch (a missed branch), the integration
+    /// failed (then `jump_to` is the branch-list guess), or the target is a
+    /// branch-list guess by design.
+    pub jump_note: Option<String>,
 }
 
 /// One traced branch.
@@ -364,6 +375,8 @@ pub fn trace_all(
                 jump_to: None,
                 sensitivities,
                 sensitivity_error,
+                jump_years: None,
+                jump_note: None,
             });
         }
         branches.push(TracedBranch {
@@ -374,6 +387,17 @@ pub fn trace_all(
         });
     }
     resolve_jumps(&mut branches, (hi - lo).abs());
+    let jump_opts = crate::analysis::jumps::JumpOptions {
+        polish_tolerance: opts.tolerance,
+        ..Default::default()
+    };
+    crate::analysis::jumps::integrate_jumps(
+        model,
+        param,
+        &mut branches,
+        (hi - lo).abs(),
+        &jump_opts,
+    );
     let bistable = bistable_windows(&branches, lo, hi);
     Hysteresis {
         param,

@@ -26,6 +26,7 @@
 //!    side without the vanishing region.
 
 use super::branches::{Fold, Hysteresis, TraceOptions, TracedBranch, TracedPoint};
+use super::sensitivity::{Sensitive, fold_sensitivities, other_params};
 use crate::model::climate::{State, standard_starts};
 use crate::model::edges::{EdgeError, EdgeModel, Surface, Topology};
 use crate::model::{Model, Param};
@@ -215,15 +216,27 @@ impl Problem for EdgeProblem {
     fn jac_mul(&self, v: &[f64], y: &mut [f64]) {
         self.em.jac_mul(v, y, 1.0 / EDGE_UNITS);
     }
+    fn solve_transpose(&self, b: &mut [f64]) -> bool {
+        // J_v = J_u diag(1, 1/U): J_vᵀ z = b is J_uᵀ z = diag(1, U) b
+        let n = self.em.cells();
+        for x in b[n..].iter_mut() {
+            *x *= EDGE_UNITS;
+        }
+        self.em.solve_transpose(b);
+        true
+    }
     fn d_param(&mut self, v: &[f64], out: &mut [f64]) {
         self.unscale(v);
         let u = std::mem::take(&mut self.u);
-        if self.param == Param::Flux && !self.log {
-            self.em.d_flux(&u, out);
+        let v0 = self.em.model.param(self.param);
+        if self.em.d_linear(self.param, &u, out) {
+            // analytic; in ln λ: ∂F/∂ln λ = λ ∂F/∂λ
+            if self.log {
+                out.iter_mut().for_each(|x| *x *= v0);
+            }
         } else {
             // central difference in the continuation coordinate, restoring
             // the parameter bit for bit
-            let v0 = self.em.model.param(self.param);
             let p0 = self.coordinate(v0);
             let h = 1e-6 * p0.abs().max(1e-2);
             let mut f1 = std::mem::take(&mut self.f1);
@@ -261,6 +274,39 @@ impl Problem for EdgeProblem {
         let m = self.em.margin(&u);
         self.u = u;
         m
+    }
+}
+
+impl Sensitive for EdgeProblem {
+    fn params(&self) -> Vec<Param> {
+        other_params(&self.em.model, self.param)
+    }
+    /// ∂F/∂q: analytic where F is affine in q ([`EdgeModel::d_linear`]),
+    /// else a central difference (step 1e-6 of the value, at least 1e-8),
+    /// the parameter restored bit for bit.
+    fn d_other(&mut self, q: Param, v: &[f64], out: &mut [f64]) {
+        self.unscale(v);
+        let u = std::mem::take(&mut self.u);
+        if self.em.d_linear(q, &u, out) {
+            self.u = u;
+            return;
+        }
+        let q0 = self.em.model.param(q);
+        let h = 1e-6 * q0.abs().max(1e-2);
+        let mut f1 = std::mem::take(&mut self.f1);
+        self.em.model.set_param(q, q0 + h);
+        self.em.refresh();
+        self.em.residual(&u, &mut f1);
+        self.em.model.set_param(q, q0 - h);
+        self.em.refresh();
+        self.em.residual(&u, out);
+        self.em.model.set_param(q, q0);
+        self.em.refresh();
+        for (o, a) in out.iter_mut().zip(&f1) {
+            *o = (a - *o) / (2.0 * h);
+        }
+        self.f1 = f1;
+        self.u = u;
     }
 }
 
@@ -534,7 +580,7 @@ pub fn trace_edges(
     let mut pieces: Vec<Piece> = Vec::new();
     for (ti, b) in raw {
         let pr = &mut problems[ti];
-        let mut conv = |q: &Point| -> TracedPoint {
+        let conv = |pr: &mut EdgeProblem, q: &Point| -> TracedPoint {
             pr.set_param(q.p);
             let u = pr.physical(&q.u);
             TracedPoint {
@@ -545,17 +591,28 @@ pub fn trace_edges(
                 residual: q.residual,
             }
         };
-        let points: Vec<TracedPoint> = b.points.iter().map(&mut conv).collect();
-        let folds: Vec<Fold> = b
-            .folds
-            .iter()
-            .map(|f| Fold {
-                point: conv(&f.point),
+        let points: Vec<TracedPoint> = b.points.iter().map(|q| conv(pr, q)).collect();
+        let mut folds: Vec<Fold> = Vec::new();
+        for f in &b.folds {
+            let point = conv(pr, &f.point);
+            // dλ/dq in the continuation coordinate; ×λ where it is ln λ
+            let scale = if pr.log { point.p } else { 1.0 };
+            let (sensitivities, sensitivity_error) =
+                match fold_sensitivities(pr, &f.point.u, f.point.p) {
+                    Ok(s) => (s.into_iter().map(|(q, d)| (q, d * scale)).collect(), None),
+                    Err(e) => (Vec::new(), Some(e)),
+                };
+            folds.push(Fold {
+                point,
                 after: f.after,
                 from_state: State::Other,
                 jump_to: None,
-            })
-            .collect();
+                sensitivities,
+                sensitivity_error,
+                jump_years: None,
+                jump_note: None,
+            });
+        }
         pieces.push(Piece {
             edges: topologies[ti].edges(),
             name: topologies[ti].name(),
@@ -576,6 +633,11 @@ pub fn trace_edges(
         })
         .collect();
     super::branches::resolve_jumps(&mut branches, (hi - lo).abs());
+    let jump_opts = super::jumps::JumpOptions {
+        polish_tolerance: opts.tolerance,
+        ..Default::default()
+    };
+    super::jumps::integrate_jumps(model, param, &mut branches, (hi - lo).abs(), &jump_opts);
     let bistable = super::branches::bistable_windows(&branches, lo, hi);
     Ok(Hysteresis {
         param,
@@ -723,6 +785,12 @@ fn join(mut pieces: Vec<Piece>, width: f64, failures: &mut Vec<String>) -> Vec<P
                 after: offset - 1,
                 from_state: State::Other,
                 jump_to: None,
+                sensitivities: Vec::new(),
+                sensitivity_error: Some(
+                    "a corner (an ice region appears or vanishes at a pole or the equator): its sensitivities are not computed yet".into(),
+                ),
+                jump_years: None,
+                jump_note: None,
             });
         }
         points.extend(b.points.into_iter().skip(skip));

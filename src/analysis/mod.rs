@@ -1,13 +1,16 @@
 //! The researcher's questions built on the models: every branch of
-//! equilibria and its folds ([`branches`]), regime maps over two parameters
-//! ([`sweep`]), folds continued in two parameters ([`foldcurve`]),
-//! periodic climates by shooting ([`periodic`]), every equilibrium of the
-//! linear step-albedo model parametrised by its ice edge ([`skeleton`]), and
-//! how far each fold moves with every other parameter ([`sensitivity`]).
+//! equilibria and its folds ([`branches`], and with the ice edges as
+//! unknowns [`edgetrace`]), the jump at each fold by integration in time
+//! ([`jumps`]), regime maps over two parameters ([`sweep`]), folds continued
+//! in two parameters ([`foldcurve`]), periodic climates by shooting
+//! ([`periodic`]), every equilibrium of the linear step-albedo model
+//! parametrised by its ice edge ([`skeleton`]), and how far each fold moves
+//! with every other parameter ([`sensitivity`]).
 
 pub mod branches;
 pub mod edgetrace;
 pub mod foldcurve;
+pub mod jumps;
 pub mod periodic;
 pub mod sensitivity;
 pub mod skeleton;

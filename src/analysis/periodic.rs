@@ -752,6 +752,8 @@ pub fn trace_seasonal(
                 sensitivity_error: Some(
                     "fold sensitivities are not computed for periodic (seasonal) climates".into(),
                 ),
+                jump_years: None,
+                jump_note: None,
             })
             .collect();
         branches.push(TracedBranch {

@@ -152,6 +152,13 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             &mut progress,
         );
         crate::analysis::branches::resolve_jumps(&mut h.branches, (to - from).abs());
+        for f in h.branches.iter_mut().flat_map(|b| b.folds.iter_mut()) {
+            if f.jump_to.is_some() {
+                f.jump_note = Some(
+                    "seasonal trace: jump_to is the branch-list guess (nearest stable climate beyond the fold in the direction the state was moving), not integrated in time".into(),
+                );
+            }
+        }
         h
     } else {
         trace_all(&model, param, from, to, warm, cold, &opts, &mut progress)
@@ -270,6 +277,12 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
                     .as_ref()
                     .map_or("none", |j| j.diagnostics.state.label())
             );
+            if let Some(y) = f.jump_years.filter(|y| y.is_finite()) {
+                s += &format!("    transition takes {y:.1} years (1% to 99% of the way)\n");
+            }
+            if let Some(note) = &f.jump_note {
+                s += &format!("    note: {note}\n");
+            }
         }
     }
     for &(a, b) in &h.bistable {
@@ -358,6 +371,7 @@ fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
         "ice_edge_north_deg",
         "from_state",
         "to_state",
+        "jump_time_yr",
     ];
     columns.extend(names.iter().map(String::as_str));
     let mut t = Table::new(&columns);
@@ -377,6 +391,9 @@ fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
                         .map_or("none", |j| j.diagnostics.state.label())
                         .into(),
                 ),
+                f.jump_years
+                    .filter(|y| y.is_finite())
+                    .map_or(Cell::Text(String::new()), Cell::Num),
             ];
             // an empty cell where the sensitivity was not computed
             row.extend(
@@ -417,6 +434,10 @@ fn folds_json(h: &Hysteresis, model: &crate::model::Model) -> serde_json::Value 
                 "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
                 "sensitivities": sensitivities,
                 "sensitivities_error": f.sensitivity_error,
+                "to_ice_edge_north_deg": f.jump_to.as_ref().map(|j| poleward_edge_deg(&j.diagnostics)),
+                "to_value": f.jump_to.as_ref().map(|j| j.p),
+                "jump_years": f.jump_years.filter(|y| y.is_finite()),
+                "jump_note": f.jump_note,
             }));
         }
     }

@@ -730,6 +730,29 @@ impl EdgeModel {
         }
     }
 
+    /// Solves Jᵀ x = b in place with the last factors (block elimination
+    /// on the transposed bordered system: x_e = S⁻ᵀ(b_e - Yᵀ b_T),
+    /// x_T = A⁻ᵀ(b_T - Rᵀ x_e)).
+    pub fn solve_transpose(&self, b: &mut [f64]) {
+        let n = self.n;
+        let k = self.edge_count();
+        let (bt, be) = b.split_at_mut(n);
+        let mut rhs = [0.0; 4];
+        for c in 0..k {
+            let yb: f64 = (0..n).map(|i| self.y[c * n + i] * bt[i]).sum();
+            rhs[c] = be[c] - yb;
+        }
+        for a in 0..k {
+            be[a] = (0..k).map(|c| self.schur_inv[c * k + a] * rhs[c]).sum();
+        }
+        for a in 0..k {
+            for i in 0..n {
+                bt[i] -= self.rows[a * n + i] * be[a];
+            }
+        }
+        self.jac.solve_transpose(bt);
+    }
+
     /// y = J diag(1, s) v with the last factored Jacobian: the edge part of
     /// v is multiplied by `edge_scale` first (1 for physical edges).
     pub fn jac_mul(&self, v: &[f64], y: &mut [f64], edge_scale: f64) {
@@ -851,17 +874,36 @@ impl EdgeModel {
         det(&m0) / det(&m)
     }
 
-    /// ∂(F, g)/∂(flux) at u: the cell co-albedo insolation, 0 for edges.
-    pub fn d_flux(&mut self, u: &[f64], out: &mut [f64]) {
+    /// ∂(F, g)/∂q at u where the residual is affine in q (flux, radiation.a,
+    /// radiation.b, CO2 through its forcing 5.35 ln(C/C0) (Myhre et al.
+    /// 1998), albedo.threshold); `false` for every other parameter.
+    pub fn d_linear(&mut self, q: crate::model::Param, u: &[f64], out: &mut [f64]) -> bool {
+        use crate::model::Param;
         let n = self.n;
         let mut e = std::mem::take(&mut self.edges);
         e.copy_from_slice(&u[n..]);
         self.layout(&e);
         self.edges = e;
-        for i in 0..n {
-            out[i] = self.coalb[i] * self.widths[i] * self.per_width;
-        }
+        let linear = matches!(
+            self.model.planet.olr,
+            crate::physics::radiation::OlrLaw::Linear { .. }
+        );
         out[n..].fill(0.0);
+        for i in 0..n {
+            let w = self.widths[i] * self.per_width;
+            out[i] = match q {
+                Param::Flux => self.coalb[i] * w,
+                Param::OlrA if linear => -w,
+                Param::OlrB if linear => -u[i] * w,
+                Param::Co2 => 5.35 / self.model.planet.co2_ppm * w,
+                Param::Threshold => 0.0,
+                _ => return false,
+            };
+        }
+        if q == Param::Threshold {
+            out[n..].fill(-1.0);
+        }
+        true
     }
 
     /// A first guess in this topology from band temperatures of `grid` and
