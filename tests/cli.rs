@@ -319,3 +319,36 @@ fn trace_writes_fold_sensitivities() {
         "{dc} vs {da}"
     );
 }
+
+/// Every branch once, every row once: the default trace lists each traced
+/// point a single time (a branch started on a range bound used to repeat
+/// its first point), and its hysteresis loop is one branch with the four
+/// folds of the classic picture (large cap, ice-free corner, small cap,
+/// plus the snowball melt when the range reaches it; North 1975 and 1984).
+#[test]
+fn trace_rows_and_branches_are_not_repeated() {
+    let d = temp_dir("trace-once");
+    let (code, _, stderr) = icefold(&[
+        "trace",
+        "--from",
+        "1100",
+        "--to",
+        "1900",
+        "--quiet",
+        "--out",
+        d.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    let csv = std::fs::read_to_string(d.join("branches.csv")).unwrap();
+    let rows: Vec<&str> = csv.lines().collect();
+    let unique: std::collections::HashSet<&&str> = rows.iter().collect();
+    assert_eq!(rows.len(), unique.len(), "repeated rows");
+    let folds = std::fs::read_to_string(d.join("folds.csv")).unwrap();
+    assert_eq!(folds.lines().count(), 1 + 4, "{folds}");
+    let branches: std::collections::HashSet<&str> = folds
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').next().unwrap())
+        .collect();
+    assert_eq!(branches.len(), 1, "{folds}");
+}

@@ -452,6 +452,10 @@ impl<'a, P: Problem> Tracer<'a, P> {
             // Beyond a bound: land exactly on it.
             if p > s.hi || p < s.lo {
                 let bound = if p > s.hi { s.hi } else { s.lo };
+                // already on the bound (a start there): no second copy of it
+                if cur.p == bound {
+                    return (pts, EndReason::Bound(bound));
+                }
                 let frac = (bound - cur.p) / (p - cur.p);
                 let mut ub: Vec<f64> = cur
                     .u
