@@ -193,6 +193,11 @@ pub struct TraceOptions {
     pub seed_values: usize,
     /// Corrector tolerance, W m-2.
     pub tolerance: f64,
+    /// Integrate the jump at every fold in time ([`crate::analysis::jumps`]);
+    /// otherwise the jump is the branch-list guess ([`resolve_jumps`]).
+    pub integrate_jumps: bool,
+    /// Compute each fold's sensitivities ([`crate::analysis::sensitivity`]).
+    pub sensitivities: bool,
 }
 
 impl Default for TraceOptions {
@@ -200,6 +205,8 @@ impl Default for TraceOptions {
         TraceOptions {
             seed_values: 9,
             tolerance: 1e-10,
+            integrate_jumps: true,
+            sensitivities: true,
         }
     }
 }

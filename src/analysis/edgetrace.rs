@@ -388,9 +388,12 @@ pub fn trace_edges(
     let symmetric = model.grid.symmetric;
     let topologies = Topology::all(2);
     let mut problems: Vec<EdgeProblem> = Vec::new();
-    for t in &topologies {
+    let first = EdgeModel::new(model, topologies[0].clone())?;
+    let table = first.table().clone();
+    problems.push(EdgeProblem::new(first, param, log));
+    for t in &topologies[1..] {
         problems.push(EdgeProblem::new(
-            EdgeModel::new(model, t.clone())?,
+            EdgeModel::with_table(model, t.clone(), table.clone())?,
             param,
             log,
         ));
@@ -597,11 +600,14 @@ pub fn trace_edges(
             let point = conv(pr, &f.point);
             // dλ/dq in the continuation coordinate; ×λ where it is ln λ
             let scale = if pr.log { point.p } else { 1.0 };
-            let (sensitivities, sensitivity_error) =
+            let (sensitivities, sensitivity_error) = if !opts.sensitivities {
+                (Vec::new(), Some("not computed (maps skip them)".into()))
+            } else {
                 match fold_sensitivities(pr, &f.point.u, f.point.p) {
                     Ok(s) => (s.into_iter().map(|(q, d)| (q, d * scale)).collect(), None),
                     Err(e) => (Vec::new(), Some(e)),
-                };
+                }
+            };
             folds.push(Fold {
                 point,
                 after: f.after,
@@ -637,7 +643,9 @@ pub fn trace_edges(
         polish_tolerance: opts.tolerance,
         ..Default::default()
     };
-    super::jumps::integrate_jumps(model, param, &mut branches, (hi - lo).abs(), &jump_opts);
+    if opts.integrate_jumps {
+        super::jumps::integrate_jumps(model, param, &mut branches, (hi - lo).abs(), &jump_opts);
+    }
     let bistable = super::branches::bistable_windows(&branches, lo, hi);
     Ok(Hysteresis {
         param,

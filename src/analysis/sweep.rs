@@ -265,8 +265,12 @@ pub fn compute_slice(
     let mut m = model.clone();
     let a = spec.across_value(j);
     m.set_param(across, a);
+    // a map needs the regimes and each fold's target, not the transition
+    // times or the sensitivities: jumps are the branch-list targets
     let opts = TraceOptions {
         tolerance: tol,
+        integrate_jumps: false,
+        sensitivities: false,
         ..TraceOptions::default()
     };
     let h = trace_all(

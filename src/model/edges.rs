@@ -230,6 +230,19 @@ impl EdgeModel {
     /// per band of the model. Needs the step albedo and positive diffusive or
     /// relaxation transport, and at least three cells per region.
     pub fn new(model: &Model, topology: Topology) -> Result<EdgeModel, EdgeError> {
+        let mut unit = model.planet.orbit;
+        unit.flux = 1.0;
+        let table = InsolationTable::new(&Insolation::new(unit, model.planet.insolation), 1024);
+        EdgeModel::with_table(model, topology, table)
+    }
+
+    /// As [`EdgeModel::new`] with the insolation table of `model` already
+    /// built (topologies of one planet share it).
+    pub fn with_table(
+        model: &Model,
+        topology: Topology,
+        table: InsolationTable,
+    ) -> Result<EdgeModel, EdgeError> {
         let pl = &model.planet;
         if !matches!(pl.albedo.kind, AlbedoKind::Step) {
             return Err(EdgeError::Unsupported(
@@ -306,9 +319,6 @@ impl EdgeModel {
             .collect();
         let counts = seg_counts;
         let k = r - 1;
-        let mut unit = pl.orbit;
-        unit.flux = 1.0;
-        let table = InsolationTable::new(&Insolation::new(unit, pl.insolation), 1024);
         let mut jac = Tridiagonal::new(n);
         if let Transport::Relaxation { .. } = pl.transport {
             jac.rank_one = Some((vec![0.0; n], vec![0.0; n]));
@@ -369,6 +379,11 @@ impl EdgeModel {
     /// The low end of the domain (0 or -1).
     pub fn low_end(&self) -> f64 {
         self.x0
+    }
+
+    /// The insolation table (per unit flux).
+    pub fn table(&self) -> &InsolationTable {
+        &self.table
     }
 
     /// Rebuilds the insolation table if an orbital parameter changed.
