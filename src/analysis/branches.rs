@@ -215,7 +215,7 @@ impl Default for TraceOptions {
 /// 1e-3 of the range of its projection onto some chord between consecutive
 /// points (projection in the arclength metric, so chords across folds,
 /// where p hardly changes, work too).
-fn on_branch(b: &Branch, u: &[f64], p: f64, scale: f64) -> bool {
+pub(crate) fn on_branch(b: &Branch, u: &[f64], p: f64, scale: f64) -> bool {
     let n = u.len() as f64;
     let wp = 100.0 / (scale * scale);
     b.points.windows(2).any(|w| {
@@ -428,12 +428,7 @@ pub fn resolve_jumps(branches: &mut [TracedBranch], width: f64) {
     let snapshot: Vec<TracedBranch> = branches.to_vec();
     for b in branches.iter_mut() {
         for f in b.folds.iter_mut() {
-            let k = f.after;
-            let near = (0..=3)
-                .flat_map(|d| [k.checked_sub(d), Some(k + 1 + d)])
-                .flatten()
-                .filter_map(|j| b.points.get(j))
-                .find(|q| q.unstable_modes == 0);
+            let near = stable_near(&b.points, f.after, |_| true);
             f.from_state = near.map_or(f.point.diagnostics.state, |q| q.diagnostics.state);
             let Some(nb) = near else {
                 continue;
@@ -488,6 +483,20 @@ pub fn resolve_jumps(branches: &mut [TracedBranch], width: f64) {
             f.jump_to = best;
         }
     }
+}
+
+/// The nearest stable point of `points` to a fold after point `after`,
+/// within three points on either side, that `accept` takes.
+pub(crate) fn stable_near(
+    points: &[TracedPoint],
+    after: usize,
+    accept: impl Fn(&TracedPoint) -> bool,
+) -> Option<&TracedPoint> {
+    (0..=3)
+        .flat_map(|d| [after.checked_sub(d), Some(after + 1 + d)])
+        .flatten()
+        .filter_map(|j| points.get(j))
+        .find(|q| q.unstable_modes == 0 && accept(q))
 }
 
 /// Parameter intervals covered by two or more stable segments (each

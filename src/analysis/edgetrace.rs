@@ -25,13 +25,14 @@
 //!    back at the junction it is a fold (a corner), located exactly on the
 //!    side without the vanishing region.
 
-use super::branches::{Fold, Hysteresis, TraceOptions, TracedBranch, TracedPoint};
+use super::branches::{Fold, Hysteresis, TraceOptions, TracedBranch, TracedPoint, on_branch};
 use super::sensitivity::{Sensitive, fold_sensitivities, other_params};
 use crate::model::climate::{State, standard_starts};
 use crate::model::edges::{EdgeError, EdgeModel, Surface, Topology};
 use crate::model::{Model, Param};
 use crate::numerics::continuation::{Branch, EndReason, Point, Problem, Settings, Tracer};
 use crate::numerics::linalg::Singular;
+use crate::numerics::newton::max_abs;
 use crate::numerics::newton::{NewtonOptions, Workspace, newton};
 
 /// Edges enter the continuation's state scaled by this factor (K per unit
@@ -173,13 +174,6 @@ impl EdgeProblem {
     }
 }
 
-fn max_abs(v: &[f64]) -> f64 {
-    v.iter().fold(
-        0.0f64,
-        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
-    )
-}
-
 impl Problem for EdgeProblem {
     fn dim(&self) -> usize {
         self.em.dim()
@@ -318,36 +312,10 @@ pub fn log_scale(param: Param, lo: f64) -> bool {
 /// A seed: topology index, continuation coordinate, continuation state.
 type Seed = (usize, f64, Vec<f64>);
 
-/// Whether (v, p) lies on raw branch `b`: within 0.25 K (and 0.25/100 in
-/// an edge) and 1e-3 of the coordinate range of its projection onto a chord
-/// between two consecutive points (in the arclength metric).
-fn on_branch(b: &Branch, v: &[f64], p: f64, width: f64) -> bool {
-    let n = v.len() as f64;
-    let wp = 100.0 / (width * width);
-    b.points.windows(2).any(|w| {
-        let (a, c) = (&w[0], &w[1]);
-        let mut num = wp * (p - a.p) * (c.p - a.p);
-        let mut den = wp * (c.p - a.p) * (c.p - a.p);
-        for ((x, ua), uc) in v.iter().zip(&a.u).zip(&c.u) {
-            num += (x - ua) * (uc - ua) / n;
-            den += (uc - ua) * (uc - ua) / n;
-        }
-        let t = if den > 0.0 {
-            (num / den).clamp(0.0, 1.0)
-        } else {
-            0.0
-        };
-        (p - (a.p + t * (c.p - a.p))).abs() < 1e-3 * width
-            && v.iter()
-                .zip(a.u.iter().zip(&c.u))
-                .all(|(x, (ua, uc))| (x - (ua + t * (uc - ua))).abs() < 0.25)
-    })
-}
-
 /// Whether (v, p) is a point of raw branch `b`: for each chord of the
 /// branch whose parameter range holds p, Newton at p from the chord's
 /// interpolation lands within 1e-6 K of v; otherwise the chord test
-/// [`on_branch`].
+/// [`on_branch`] (0.25 K, or 0.25/100 in an edge).
 fn on_traced(pr: &mut EdgeProblem, b: &Branch, v: &[f64], p: f64, width: f64, tol: f64) -> bool {
     for w in b.points.windows(2) {
         let (a, c) = (&w[0], &w[1]);

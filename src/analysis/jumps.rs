@@ -25,6 +25,7 @@ use crate::analysis::branches::{TracedBranch, TracedPoint, poleward_edge_deg};
 use crate::model::climate::diagnose;
 use crate::model::{Model, Param};
 use crate::numerics::linalg::Tridiagonal;
+use crate::numerics::newton::max_abs;
 use crate::numerics::newton::{NewtonOptions, Workspace, implicit_step, newton, unstable_modes};
 
 /// Settings of the jump integration.
@@ -108,13 +109,6 @@ struct Run {
     steps: usize,
     /// Times the state first went 1% and 99% of the way to a given target.
     crossings: [Option<f64>; 2],
-}
-
-fn max_abs(v: &[f64]) -> f64 {
-    v.iter().fold(
-        0.0f64,
-        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
-    )
 }
 
 fn max_diff(a: &[f64], b: &[f64]) -> f64 {
@@ -502,12 +496,9 @@ pub fn integrate_jumps(
     let mut m = model.clone();
     for b in branches.iter_mut() {
         for f in b.folds.iter_mut() {
-            let k = f.after;
-            let near = (0..=3)
-                .flat_map(|d| [k.checked_sub(d), Some(k + 1 + d)])
-                .flatten()
-                .filter_map(|j| b.points.get(j))
-                .find(|q| q.unstable_modes == 0 && q.p != f.point.p);
+            let fold_p = f.point.p;
+            let near =
+                crate::analysis::branches::stable_near(&b.points, f.after, |q| q.p != fold_p);
             let Some(nb) = near else {
                 continue;
             };

@@ -10,14 +10,8 @@ use crate::model::seasonal::*;
 use crate::model::{Model, Param};
 use crate::numerics::continuation::{Branch, Problem, Settings, Tracer};
 use crate::numerics::linalg::Singular;
+use crate::numerics::newton::max_abs;
 use faer::prelude::Solve;
-
-fn max_abs(v: &[f64]) -> f64 {
-    v.iter().fold(
-        0.0f64,
-        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
-    )
-}
 
 /// Eigenvalues (Floquet multipliers) of the row-major n x n matrix `m`,
 /// as (re, im) pairs sorted by decreasing modulus (dense, faer).

@@ -38,6 +38,7 @@
 use crate::model::Model;
 use crate::numerics::grid::Spacing;
 use crate::numerics::linalg::Tridiagonal;
+use crate::numerics::quad::end_value;
 use crate::physics::albedo::AlbedoKind;
 use crate::physics::insolation::{Insolation, InsolationTable};
 use crate::physics::radiation::OlrLaw;
@@ -340,33 +341,9 @@ impl EdgeFamilies {
         (q.is_finite() && q > 0.0).then_some(q)
     }
 
-    /// Value at `at` of the quadratic whose averages over the cells `idx`
-    /// are `t[idx]` (exact for quadratics: the averages of 1, y, y² over a
-    /// cell are solved for, y = x - at).
+    /// [`end_value`] on the current cells.
     fn end_value(&self, t: &[f64], idx: [usize; 3], at: f64) -> f64 {
-        let mut m = [[0.0; 3]; 3];
-        let mut r = [0.0; 3];
-        for (row, &k) in idx.iter().enumerate() {
-            let (a, b) = (self.faces[k] - at, self.faces[k + 1] - at);
-            let w = b - a;
-            m[row] = [
-                1.0,
-                (b * b - a * a) / (2.0 * w),
-                (b * b * b - a * a * a) / (3.0 * w),
-            ];
-            r[row] = t[k];
-        }
-        // Cramer's rule for the constant coefficient
-        let det = |m: &[[f64; 3]; 3]| {
-            m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
-                - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
-                + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
-        };
-        let mut m0 = m;
-        for row in 0..3 {
-            m0[row][0] = r[row];
-        }
-        det(&m0) / det(&m)
+        end_value(&self.faces, t, idx, at)
     }
 
     /// dQ/dx_s (as d flux / d x_s) by a central difference of the family.

@@ -10,6 +10,7 @@ pub mod climate;
 pub mod edges;
 pub mod seasonal;
 pub mod subgrid;
+pub mod topology;
 
 pub use crate::physics::transport::Transport;
 pub use annual::{BandFluxes, Model, Param, Planet, RELAXATION_RAMP_BANDS};

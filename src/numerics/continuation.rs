@@ -22,6 +22,7 @@
 //! i.e. a zero of the extended system {F = 0, J v = 0} with v = t_u.
 
 use crate::numerics::linalg::Singular;
+use crate::numerics::newton::max_abs;
 
 /// What continuation needs from a problem: residual, an O(n) factor-solve
 /// of its Jacobian, the parameter derivative, and stability.
@@ -217,13 +218,6 @@ impl Ws {
             tmp: vec![0.0; n],
         }
     }
-}
-
-fn max_abs(v: &[f64]) -> f64 {
-    v.iter().fold(
-        0.0f64,
-        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
-    )
 }
 
 /// The tracer: a problem plus settings.

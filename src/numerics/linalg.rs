@@ -324,6 +324,65 @@ impl Tridiagonal {
     }
 }
 
+/// Inverse of a k × k matrix (k ≤ 4) by Gauss-Jordan with partial pivoting.
+pub fn invert_small(a: &[f64], inv: &mut [f64], k: usize) -> Result<(), Singular> {
+    let mut m = [0.0; 16];
+    let mut r = [0.0; 16];
+    for i in 0..k {
+        for j in 0..k {
+            m[i * k + j] = a[i * k + j];
+            r[i * k + j] = if i == j { 1.0 } else { 0.0 };
+        }
+    }
+    let scale = a.iter().fold(0.0f64, |s, x| s.max(x.abs())).max(1e-300);
+    for col in 0..k {
+        let p = (col..k)
+            .max_by(|&x, &y| m[x * k + col].abs().total_cmp(&m[y * k + col].abs()))
+            .unwrap_or(col);
+        let pivot = m[p * k + col].abs();
+        if pivot.is_nan() || pivot <= 1e-14 * scale {
+            return Err(Singular { row: col });
+        }
+        for j in 0..k {
+            m.swap(col * k + j, p * k + j);
+            r.swap(col * k + j, p * k + j);
+        }
+        let d = m[col * k + col];
+        for j in 0..k {
+            m[col * k + j] /= d;
+            r[col * k + j] /= d;
+        }
+        for i in 0..k {
+            if i != col {
+                let f = m[i * k + col];
+                for j in 0..k {
+                    m[i * k + j] -= f * m[col * k + j];
+                    r[i * k + j] -= f * r[col * k + j];
+                }
+            }
+        }
+    }
+    inv[..k * k].copy_from_slice(&r[..k * k]);
+    Ok(())
+}
+
+/// Number of eigenvalues with negative real part of a k × k matrix, k ≤ 2.
+pub fn negative_eigenvalues(e: &[f64], k: usize) -> usize {
+    match k {
+        1 => usize::from(e[0] < 0.0),
+        _ => {
+            let (tr, det) = (e[0] + e[3], e[0] * e[3] - e[1] * e[2]);
+            if det < 0.0 {
+                1
+            } else if tr < 0.0 {
+                2
+            } else {
+                0
+            }
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

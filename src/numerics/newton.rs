@@ -104,7 +104,8 @@ impl Workspace {
     }
 }
 
-fn max_abs(v: &[f64]) -> f64 {
+/// max_i |v_i| (the residual norm of every solver), NaN for a NaN entry.
+pub fn max_abs(v: &[f64]) -> f64 {
     v.iter().fold(
         0.0f64,
         |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },

@@ -55,6 +55,35 @@ pub fn p2(x: f64) -> f64 {
     1.5 * x * x - 0.5
 }
 
+/// Value at `at` of the quadratic whose averages over the cells `idx`
+/// (faces `faces`) are `t[idx]`: the averages of 1, y, y² over a cell are
+/// solved for, y = x - at, by Cramer's rule (exact for quadratics). Used to
+/// reconstruct the temperature at a pole or the equator from the cell means.
+pub fn end_value(faces: &[f64], t: &[f64], idx: [usize; 3], at: f64) -> f64 {
+    let mut m = [[0.0; 3]; 3];
+    let mut r = [0.0; 3];
+    for (row, &i) in idx.iter().enumerate() {
+        let (a, b) = (faces[i] - at, faces[i + 1] - at);
+        let w = b - a;
+        m[row] = [
+            1.0,
+            (b * b - a * a) / (2.0 * w),
+            (b * b * b - a * a * a) / (3.0 * w),
+        ];
+        r[row] = t[i];
+    }
+    let det = |m: &[[f64; 3]; 3]| {
+        m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+            - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+            + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
+    };
+    let mut m0 = m;
+    for row in 0..3 {
+        m0[row][0] = r[row];
+    }
+    det(&m0) / det(&m)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -57,94 +57,17 @@
 //! 36, 1178), which the tests check.
 
 use crate::model::Model;
-use crate::model::climate::{Diagnostics, State, classify_ice, hemisphere_ice_edges};
-use crate::numerics::grid::{Grid, Spacing};
-use crate::numerics::linalg::{Singular, Tridiagonal};
+
+pub use crate::model::topology::{Surface, Topology};
+
+mod bands;
+use crate::numerics::grid::Spacing;
+use crate::numerics::linalg::{Singular, Tridiagonal, invert_small, negative_eigenvalues};
+use crate::numerics::quad::end_value;
 use crate::physics::albedo::AlbedoKind;
 use crate::physics::insolation::{Insolation, InsolationLaw, InsolationTable};
 use crate::physics::radiation::Olr;
 use crate::physics::transport::Transport;
-
-/// The surface type of a region.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
-pub enum Surface {
-    /// Open surface (ocean or land).
-    Open,
-    /// Ice.
-    Ice,
-}
-
-/// An ice topology: the surface types of the regions from the domain's low
-/// end (the equator on a symmetric grid, the south pole on a full one) to
-/// the north pole, alternating.
-#[derive(Clone, Debug, PartialEq, Eq, Hash)]
-pub struct Topology {
-    /// Regions, low end first.
-    pub regions: Vec<Surface>,
-}
-
-impl Topology {
-    /// Every topology with at most `max_edges` edges.
-    pub fn all(max_edges: usize) -> Vec<Topology> {
-        let mut out = Vec::new();
-        for k in 0..=max_edges {
-            for first in [Surface::Open, Surface::Ice] {
-                let regions = (0..=k)
-                    .map(|r| if r % 2 == 0 { first } else { other(first) })
-                    .collect();
-                out.push(Topology { regions });
-            }
-        }
-        out
-    }
-
-    /// The topology of ascending ice intervals on [x0, 1].
-    pub fn of_intervals(intervals: &[(f64, f64)], x0: f64) -> (Topology, Vec<f64>) {
-        let tiny = 1e-12;
-        let mut regions = Vec::new();
-        let mut edges = Vec::new();
-        let mut at = x0;
-        for &(a, b) in intervals {
-            if a > at + tiny {
-                regions.push(Surface::Open);
-                edges.push(a);
-            }
-            regions.push(Surface::Ice);
-            if b < 1.0 - tiny {
-                edges.push(b);
-            }
-            at = b;
-        }
-        if regions.is_empty() || at < 1.0 - tiny {
-            regions.push(Surface::Open);
-        }
-        (Topology { regions }, edges)
-    }
-
-    /// Number of edges.
-    pub fn edges(&self) -> usize {
-        self.regions.len().saturating_sub(1)
-    }
-
-    /// A short name, e.g. `open|ice` (low end first).
-    pub fn name(&self) -> String {
-        self.regions
-            .iter()
-            .map(|s| match s {
-                Surface::Open => "open",
-                Surface::Ice => "ice",
-            })
-            .collect::<Vec<_>>()
-            .join("|")
-    }
-}
-
-fn other(s: Surface) -> Surface {
-    match s {
-        Surface::Open => Surface::Ice,
-        Surface::Ice => Surface::Open,
-    }
-}
 
 /// A knot of the mapped grid: a domain end, an edge, or the equator of a
 /// full grid inside a region that spans it.
@@ -601,12 +524,7 @@ impl EdgeModel {
                 .iter()
                 .position(|k| *k == Knot::Edge(j))
                 .unwrap_or(1);
-            let at = |i: usize| match self.knot_kind[i] {
-                Knot::Low => self.x0,
-                Knot::High => 1.0,
-                Knot::Equator => 0.0,
-                Knot::Edge(q) => u[n + q],
-            };
+            let at = |i: usize| self.knot_x(self.knot_kind[i], u);
             let room = (u[n + j] - at(kj - 1)).min(at(kj + 1) - u[n + j]);
             let h = (EDGE_STEP * room).clamp(1e-13, 1e-6);
             e[j] = u[n + j] + h;
@@ -831,14 +749,8 @@ impl EdgeModel {
         let span = 1.0 - self.x0;
         let delta = 1e-6 * span;
         let mut m = f64::INFINITY;
-        let knot_x = |kind: Knot| match kind {
-            Knot::Low => self.x0,
-            Knot::High => 1.0,
-            Knot::Equator => 0.0,
-            Knot::Edge(j) => u[n + j],
-        };
         for w in self.knot_kind.windows(2) {
-            m = m.min(100.0 * (knot_x(w[1]) - knot_x(w[0]) - delta));
+            m = m.min(100.0 * (self.knot_x(w[1], u) - self.knot_x(w[0], u) - delta));
         }
         let mut e = std::mem::take(&mut self.edges);
         e.copy_from_slice(&u[n..]);
@@ -862,31 +774,9 @@ impl EdgeModel {
         m.min(side(self.topology.regions[k]) * (hi - ts))
     }
 
-    /// Value at `at` of the quadratic whose averages over the cells `idx`
-    /// are `t[idx]`.
+    /// [`end_value`] on the current cells.
     fn end_value(&self, t: &[f64], idx: [usize; 3], at: f64) -> f64 {
-        let mut m = [[0.0; 3]; 3];
-        let mut r = [0.0; 3];
-        for (row, &i) in idx.iter().enumerate() {
-            let (a, b) = (self.faces[i] - at, self.faces[i + 1] - at);
-            let w = b - a;
-            m[row] = [
-                1.0,
-                (b * b - a * a) / (2.0 * w),
-                (b * b * b - a * a * a) / (3.0 * w),
-            ];
-            r[row] = t[i];
-        }
-        let det = |m: &[[f64; 3]; 3]| {
-            m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
-                - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
-                + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
-        };
-        let mut m0 = m;
-        for row in 0..3 {
-            m0[row][0] = r[row];
-        }
-        det(&m0) / det(&m)
+        end_value(&self.faces, t, idx, at)
     }
 
     /// ∂(F, g)/∂q at u where the residual is affine in q (flux, radiation.a,
@@ -921,121 +811,28 @@ impl EdgeModel {
         true
     }
 
-    /// A first guess in this topology from band temperatures of `grid` and
-    /// the edges `edges`: the bands interpolated linearly onto the mapped
-    /// cell centres.
-    pub fn guess(&mut self, grid: &Grid, bands: &[f64], edges: &[f64], u: &mut [f64]) -> bool {
-        let n = self.n;
-        self.layout(edges);
-        if !self.valid {
-            return false;
+    /// x of a knot at state u.
+    fn knot_x(&self, kind: Knot, u: &[f64]) -> f64 {
+        match kind {
+            Knot::Low => self.x0,
+            Knot::High => 1.0,
+            Knot::Equator => 0.0,
+            Knot::Edge(j) => u[self.n + j],
         }
-        let c = &grid.centres;
-        for i in 0..n {
-            let x = self.centres[i];
-            let j = c.partition_point(|&y| y < x).clamp(1, c.len() - 1);
-            let a = ((x - c[j - 1]) / (c[j] - c[j - 1])).clamp(0.0, 1.0);
-            u[i] = bands[j - 1] + a * (bands[j] - bands[j - 1]);
-        }
-        u[n..].copy_from_slice(edges);
-        true
     }
 
-    /// The state on the bands of `grid` (the scenario's), conservatively:
-    /// each mapped cell's profile is linear (slope from its neighbours in
-    /// the same region) with the cell's mean, integrated over each band.
-    pub fn to_bands(&mut self, u: &[f64], grid: &Grid) -> Vec<f64> {
-        let n = self.n;
-        let mut e = std::mem::take(&mut self.edges);
-        e.copy_from_slice(&u[n..]);
-        self.layout(&e);
-        self.edges = e;
-        let t = &u[..n];
-        let mut slope = vec![0.0; n];
-        for seg in 0..self.counts.len() {
-            let (a, b) = (self.knots[seg], self.knots[seg + 1]);
-            for i in a..b {
-                let (l, r) = (
-                    if i > a { i - 1 } else { i },
-                    if i + 1 < b { i + 1 } else { i },
-                );
-                if r > l {
-                    slope[i] = (t[r] - t[l]) / (self.centres[r] - self.centres[l]);
-                }
-            }
-        }
-        let mut out = vec![0.0; grid.len()];
-        let mut i = 0;
-        for (band, o) in out.iter_mut().enumerate() {
-            let (ba, bb) = (grid.faces[band], grid.faces[band + 1]);
-            while i + 1 < n && self.faces[i + 1] <= ba {
-                i += 1;
-            }
-            let mut acc = 0.0;
-            let mut j = i;
-            while j < n && self.faces[j] < bb {
-                let (lo, hi) = (self.faces[j].max(ba), self.faces[j + 1].min(bb));
-                if hi > lo {
-                    // ∫ (T_j + slope (x - centroid)) dx, centroid of the cell in x
-                    let xm = 0.5 * (self.faces[j] + self.faces[j + 1]);
-                    let mid = 0.5 * (lo + hi);
-                    acc += (hi - lo) * (t[j] + slope[j] * (mid - xm));
-                }
-                j += 1;
-            }
-            *o = acc / (bb - ba);
-        }
-        out
-    }
-
-    /// Diagnostics of u (exact edges, not from the bands).
-    pub fn diagnostics(&mut self, u: &[f64]) -> Diagnostics {
+    /// The ascending ice intervals [a, b] in x of state u.
+    fn ice_intervals(&self, u: &[f64]) -> Vec<(f64, f64)> {
         let n = self.n;
         let k = self.edge_count();
-        let mut f = vec![0.0; n + k];
-        self.residual(u, &mut f);
-        let t = &u[..n];
-        let span = 1.0 - self.x0;
-        let symmetric = self.model.grid.symmetric;
-        let mut intervals = Vec::new();
-        for reg in 0..=k {
-            if self.topology.regions[reg] == Surface::Ice {
+        (0..=k)
+            .filter(|&reg| self.topology.regions[reg] == Surface::Ice)
+            .map(|reg| {
                 let a = if reg == 0 { self.x0 } else { u[n + reg - 1] };
                 let b = if reg == k { 1.0 } else { u[n + reg] };
-                intervals.push((a, b));
-            }
-        }
-        let (edges, state) = classify_ice(&intervals, self.x0, 1.0, symmetric);
-        let (north, south) = hemisphere_ice_edges(&intervals, symmetric);
-        let covered: f64 = intervals.iter().map(|(a, b)| b - a).sum();
-        let q = self.model.planet.orbit.flux;
-        let ins = self.mean(&self.ins) * q;
-        let abs = self.mean(&self.coalb) * q;
-        Diagnostics {
-            global_mean_c: self.mean(t),
-            ice_area_fraction: (covered / span).clamp(0.0, 1.0),
-            ice_edges_deg: edges,
-            ice_edge_north_deg: north,
-            ice_edge_south_deg: south,
-            planetary_albedo: if ins > 0.0 { 1.0 - abs / ins } else { 0.0 },
-            state,
-            energy_imbalance: f[..n].iter().sum::<f64>() / n as f64,
-        }
-    }
-
-    /// The kind of climate of this topology (edges inside the domain).
-    pub fn state(&self, u: &[f64]) -> State {
-        let n = self.n;
-        let k = self.edge_count();
-        let mut intervals = Vec::new();
-        for reg in 0..=k {
-            if self.topology.regions[reg] == Surface::Ice {
-                let a = if reg == 0 { self.x0 } else { u[n + reg - 1] };
-                let b = if reg == k { 1.0 } else { u[n + reg] };
-                intervals.push((a, b));
-            }
-        }
-        classify_ice(&intervals, self.x0, 1.0, self.model.grid.symmetric).1
+                (a, b)
+            })
+            .collect()
     }
 }
 
@@ -1047,63 +844,4 @@ fn insolation_key(model: &Model) -> (f64, f64, f64, InsolationLaw) {
         o.perihelion,
         model.planet.insolation,
     )
-}
-
-/// Inverse of a k × k matrix (k ≤ 4) by Gauss-Jordan with partial pivoting.
-fn invert_small(a: &[f64], inv: &mut [f64], k: usize) -> Result<(), Singular> {
-    let mut m = [0.0; 16];
-    let mut r = [0.0; 16];
-    for i in 0..k {
-        for j in 0..k {
-            m[i * k + j] = a[i * k + j];
-            r[i * k + j] = if i == j { 1.0 } else { 0.0 };
-        }
-    }
-    let scale = a.iter().fold(0.0f64, |s, x| s.max(x.abs())).max(1e-300);
-    for col in 0..k {
-        let p = (col..k)
-            .max_by(|&x, &y| m[x * k + col].abs().total_cmp(&m[y * k + col].abs()))
-            .unwrap_or(col);
-        let pivot = m[p * k + col].abs();
-        if pivot.is_nan() || pivot <= 1e-14 * scale {
-            return Err(Singular { row: col });
-        }
-        for j in 0..k {
-            m.swap(col * k + j, p * k + j);
-            r.swap(col * k + j, p * k + j);
-        }
-        let d = m[col * k + col];
-        for j in 0..k {
-            m[col * k + j] /= d;
-            r[col * k + j] /= d;
-        }
-        for i in 0..k {
-            if i != col {
-                let f = m[i * k + col];
-                for j in 0..k {
-                    m[i * k + j] -= f * m[col * k + j];
-                    r[i * k + j] -= f * r[col * k + j];
-                }
-            }
-        }
-    }
-    inv[..k * k].copy_from_slice(&r[..k * k]);
-    Ok(())
-}
-
-/// Number of eigenvalues with negative real part of a k × k matrix, k ≤ 2.
-fn negative_eigenvalues(e: &[f64], k: usize) -> usize {
-    match k {
-        1 => usize::from(e[0] < 0.0),
-        _ => {
-            let (tr, det) = (e[0] + e[3], e[0] * e[3] - e[1] * e[2]);
-            if det < 0.0 {
-                1
-            } else if tr < 0.0 {
-                2
-            } else {
-                0
-            }
-        }
-    }
 }
