@@ -2,7 +2,9 @@
 //! Groups: the per-point kernel `Model::evaluate` with and without its
 //! Jacobian; steady solves against bands; Newton against implicit time
 //! stepping to the same equilibrium; traces of the hysteresis loop against
-//! bands; the flux ramp a researcher would otherwise write. A summary after
+//! bands, and at 90 bands against the sub-grid ice fraction (the
+//! formulation before the edges became unknowns); the flux ramp a
+//! researcher would otherwise write. A summary after
 //! criterion's report prints the comparisons as ratios of times measured in
 //! this run, and the Newton iterations and fold locations observed.
 //!
@@ -12,7 +14,7 @@ mod common;
 
 use common::Summary;
 use criterion::{BenchmarkId, Criterion};
-use icefold::analysis::branches::{TraceOptions, trace_all};
+use icefold::analysis::branches::{TraceOptions, trace_all, trace_subgrid};
 use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
 use icefold::numerics::newton::{NewtonOptions, Workspace, implicit_step, newton};
@@ -167,7 +169,29 @@ fn trace(c: &mut Criterion, s: &Summary) -> Option<f64> {
         });
         folds.push((bands, found));
     }
+    // the comparison: the same trace with the ice as a sub-grid fraction of
+    // a band (the formulation before the edges became unknowns)
+    let m = model(90);
+    g.bench_function("bands=90/sub-grid", |b| {
+        b.iter(|| {
+            black_box(trace_subgrid(
+                &m,
+                Param::Flux,
+                LO,
+                HI,
+                30.0,
+                -60.0,
+                &TraceOptions::default(),
+                &mut |_| {},
+            ))
+        })
+    });
     g.finish();
+    s.ratio(
+        "trace at 90 bands: ice edges as unknowns vs sub-grid ice fraction",
+        &["trace", "bands=90"],
+        &["trace", "bands=90/sub-grid"],
+    );
     let mut lowest = None;
     for (bands, found) in folds {
         let id = format!("bands={bands}");

@@ -259,6 +259,25 @@ pub fn trace_all(
     {
         return h;
     }
+    trace_subgrid(model, param, lo, hi, warm, cold, opts, progress)
+}
+
+/// Traces every branch of `model` in `param` over [lo, hi] on the
+/// scenario's bands, the ice of a step albedo as a sub-grid fraction of a
+/// band (the smooth albedo, the seasonal model, and the formulation the
+/// step albedo had before its edges became unknowns: kept for models the
+/// edge formulation does not cover and as the benchmarks' comparison).
+#[allow(clippy::too_many_arguments)]
+pub fn trace_subgrid(
+    model: &Model,
+    param: Param,
+    lo: f64,
+    hi: f64,
+    warm: f64,
+    cold: f64,
+    opts: &TraceOptions,
+    progress: &mut dyn FnMut(&str),
+) -> Hysteresis {
     let mut failures = Vec::new();
     // 1. seeds: equilibria from warm and cold starts at several values
     let mut seeds: Vec<(f64, Vec<f64>)> = Vec::new();

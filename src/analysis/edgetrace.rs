@@ -309,6 +309,10 @@ pub fn log_scale(param: Param, lo: f64) -> bool {
     matches!(param, Param::Co2 | Param::Diffusivity) && lo > 0.0
 }
 
+/// How near (K, or 1/100 of x for an edge) the chord of a traced branch must
+/// come to a state for [`on_traced`] to try Newton from it.
+const CHORD_NEAR: f64 = 3.0;
+
 /// A seed: topology index, continuation coordinate, continuation state.
 type Seed = (usize, f64, Vec<f64>);
 
@@ -329,6 +333,11 @@ fn on_traced(pr: &mut EdgeProblem, b: &Branch, v: &[f64], p: f64, width: f64, to
             0.5
         };
         let mut u: Vec<f64> = a.u.iter().zip(&c.u).map(|(x, y)| x + r * (y - x)).collect();
+        // a chord further than CHORD_NEAR from v does not lead Newton to it
+        // (and costs a solve): the branch there is elsewhere
+        if u.iter().zip(v).any(|(x, y)| (x - y).abs() > CHORD_NEAR) {
+            continue;
+        }
         if pr.newton(&mut u, p, tol.max(1e-9)).is_some()
             && u.iter().zip(v).all(|(x, y)| (x - y).abs() < 1e-6)
         {
@@ -356,12 +365,9 @@ pub fn trace_edges(
     let symmetric = model.grid.symmetric;
     let topologies = Topology::all(2);
     let mut problems: Vec<EdgeProblem> = Vec::new();
-    let first = EdgeModel::new(model, topologies[0].clone())?;
-    let table = first.table().clone();
-    problems.push(EdgeProblem::new(first, param, log));
-    for t in &topologies[1..] {
+    for t in &topologies {
         problems.push(EdgeProblem::new(
-            EdgeModel::with_table(model, t.clone(), table.clone())?,
+            EdgeModel::new(model, t.clone())?,
             param,
             log,
         ));

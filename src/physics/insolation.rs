@@ -4,6 +4,7 @@
 use crate::numerics::quad::{gauss_legendre, p2};
 use crate::physics::orbit::Orbit;
 use std::f64::consts::{FRAC_PI_2, PI};
+use std::sync::{Arc, Mutex};
 
 /// Daily-mean insolation at x = sin(latitude) for solar declination δ and
 /// distance factor (a/r)² (Berger 1978, J. Atmos. Sci. 35, 2362):
@@ -20,14 +21,22 @@ fn day_integrand(x: f64, declination: f64) -> f64 {
     let sin_phi = x.clamp(-1.0, 1.0);
     let cos_phi = (1.0 - sin_phi * sin_phi).max(0.0).sqrt();
     let (sin_d, cos_d) = declination.sin_cos();
+    day_terms(sin_phi, cos_phi, sin_d, cos_d)
+}
+
+/// [`day_integrand`] from the sines and cosines of latitude and declination;
+/// sin h0 = sqrt(1 - cos² h0) with cos h0 clipped to [-1, 1].
+#[inline]
+fn day_terms(sin_phi: f64, cos_phi: f64, sin_d: f64, cos_d: f64) -> f64 {
     let num = sin_phi * sin_d;
     let den = cos_phi * cos_d;
-    let h0 = if den <= 0.0 {
-        if num > 0.0 { PI } else { 0.0 }
+    let (h0, sin_h0) = if den <= 0.0 {
+        (if num > 0.0 { PI } else { 0.0 }, 0.0)
     } else {
-        (-num / den).clamp(-1.0, 1.0).acos()
+        let c = (-num / den).clamp(-1.0, 1.0);
+        (c.acos(), (1.0 - c * c).sqrt())
     };
-    (h0 * num + den * h0.sin()).max(0.0)
+    (h0 * num + den * sin_h0).max(0.0)
 }
 
 /// How the annual-mean insolation is obtained.
@@ -51,6 +60,11 @@ pub struct Insolation {
     pub law: InsolationLaw,
     nodes: Vec<f64>,
     weights: Vec<f64>,
+    /// The year quadrature where no polar day or night breaks it (one piece
+    /// λ in [-π/2, π/2]), precomputed for `day_obliquity`: (sin δ, cos δ,
+    /// weight × dλ/ds) per node.
+    day: Vec<(f64, f64, f64)>,
+    day_obliquity: f64,
 }
 
 /// Gauss points per smooth piece of the year integral.
@@ -60,11 +74,26 @@ impl Insolation {
     /// Annual-mean insolation for `orbit` under `law`.
     pub fn new(orbit: Orbit, law: InsolationLaw) -> Insolation {
         let (nodes, weights) = gauss_legendre(YEAR_POINTS);
+        let (a, b) = (-FRAC_PI_2, FRAC_PI_2);
+        let day = nodes
+            .iter()
+            .zip(&weights)
+            .map(|(s, wt)| {
+                let s = 0.5 * (s + 1.0);
+                let lam = a + (b - a) * s * s * (3.0 - 2.0 * s);
+                let dlam = (b - a) * 6.0 * s * (1.0 - s);
+                let sin_d = orbit.obliquity.sin() * lam.sin();
+                let cos_d = (1.0 - sin_d * sin_d).max(0.0).sqrt();
+                (sin_d, cos_d, 0.5 * wt * dlam)
+            })
+            .collect();
         Insolation {
             orbit,
             law,
             nodes,
             weights,
+            day,
+            day_obliquity: orbit.obliquity,
         }
     }
 
@@ -95,12 +124,21 @@ impl Insolation {
                     breaks = [-FRAC_PI_2, -l, l, FRAC_PI_2];
                     nb = 4;
                 }
+                let sin_phi = x.clamp(-1.0, 1.0);
+                let mut total = 0.0;
+                if nb == 2 && o.obliquity == self.day_obliquity {
+                    for &(sin_d, cos_d, w) in &self.day {
+                        total += w * day_terms(sin_phi, cos_phi, sin_d, cos_d);
+                    }
+                    let e = o.eccentricity;
+                    return o.flux * 2.0 * total / (2.0 * PI * PI * (1.0 - e * e).sqrt());
+                }
+                let sin_obl = o.obliquity.sin();
                 let pts: &[f64] = if nb == 4 {
                     &breaks
                 } else {
                     &[-FRAC_PI_2, FRAC_PI_2]
                 };
-                let mut total = 0.0;
                 for w in pts.windows(2) {
                     let (a, b) = (w[0], w[1]);
                     if b <= a {
@@ -111,8 +149,10 @@ impl Insolation {
                         let s = 0.5 * (s + 1.0);
                         let lam = a + (b - a) * s * s * (3.0 - 2.0 * s);
                         let dlam = (b - a) * 6.0 * s * (1.0 - s);
-                        let dec = (o.obliquity.sin() * lam.sin()).asin();
-                        piece += 0.5 * wt * dlam * day_integrand(x, dec);
+                        // sin δ = sin ε sin λ, |δ| <= π/2
+                        let sin_d = sin_obl * lam.sin();
+                        let cos_d = (1.0 - sin_d * sin_d).max(0.0).sqrt();
+                        piece += 0.5 * wt * dlam * day_terms(sin_phi, cos_phi, sin_d, cos_d);
                     }
                     total += piece;
                 }
@@ -151,17 +191,44 @@ pub struct InsolationTable {
     sp2: Vec<f64>,
 }
 
+/// What an insolation table depends on: flux, obliquity, eccentricity, law
+/// (tag and P2 coefficient) as bits, and the node count.
+type TableKey = (u64, u64, u64, u8, u64, usize);
+
+/// Tables built recently in this process, most recent first.
+static TABLES: Mutex<Vec<(TableKey, Arc<InsolationTable>)>> = Mutex::new(Vec::new());
+
+/// How many tables the process keeps (a trace with central differences in
+/// obliquity touches three; a map worker one per slice).
+const KEPT_TABLES: usize = 16;
+
 impl InsolationTable {
     /// Tables of `ins` (per unit flux) at `nodes` + 1 equally spaced x in
-    /// [0, 1], each interval by 8-point Gauss-Legendre quadrature.
+    /// [0, 1]. Each interval is integrated by 4-point Gauss-Legendre, split at
+    /// the polar circle x = cos ε where S̄ loses smoothness, so the tables
+    /// are smooth in the obliquity too (central differences in ε).
     pub fn new(ins: &Insolation, nodes: usize) -> InsolationTable {
         let m = nodes.max(16);
-        let (gz, gw) = gauss_legendre(8);
+        let (gz, gw) = gauss_legendre(4);
         let mut t = InsolationTable {
             i_s: vec![0.0; m + 1],
             i_sp2: vec![0.0; m + 1],
             s: vec![0.0; m + 1],
             sp2: vec![0.0; m + 1],
+        };
+        let polar = match ins.law {
+            InsolationLaw::Orbital => ins.orbit.obliquity.cos().abs(),
+            InsolationLaw::Legendre { .. } => 2.0,
+        };
+        let piece = |a: f64, b: f64| {
+            let (mut is, mut isp) = (0.0, 0.0);
+            for (z, w) in gz.iter().zip(&gw) {
+                let xq = 0.5 * (a + b) + 0.5 * (b - a) * z;
+                let sq = ins.annual_mean(xq);
+                is += w * sq;
+                isp += w * sq * p2(xq);
+            }
+            (0.5 * (b - a) * is, 0.5 * (b - a) * isp)
         };
         for j in 0..=m {
             let x = j as f64 / m as f64;
@@ -169,44 +236,95 @@ impl InsolationTable {
             t.s[j] = s;
             t.sp2[j] = s * p2(x);
             if j > 0 {
-                let (a, b) = ((j - 1) as f64 / m as f64, x);
-                let (mut is, mut isp) = (0.0, 0.0);
-                for (z, w) in gz.iter().zip(&gw) {
-                    let xq = 0.5 * (a + b) + 0.5 * (b - a) * z;
-                    let sq = ins.annual_mean(xq);
-                    is += w * sq;
-                    isp += w * sq * p2(xq);
-                }
-                t.i_s[j] = t.i_s[j - 1] + 0.5 * (b - a) * is;
-                t.i_sp2[j] = t.i_sp2[j - 1] + 0.5 * (b - a) * isp;
+                let a = (j - 1) as f64 / m as f64;
+                let (is, isp) = if a < polar && polar < x {
+                    let (p, q) = (piece(a, polar), piece(polar, x));
+                    (p.0 + q.0, p.1 + q.1)
+                } else {
+                    piece(a, x)
+                };
+                t.i_s[j] = t.i_s[j - 1] + is;
+                t.i_sp2[j] = t.i_sp2[j - 1] + isp;
             }
         }
         t
     }
 
+    /// [`InsolationTable::new`], shared: a table of the same insolation and
+    /// node count built earlier in this process is reused (the result is
+    /// the same table bit for bit, whichever thread built it).
+    pub fn shared(ins: &Insolation, nodes: usize) -> Arc<InsolationTable> {
+        let (tag, c) = match ins.law {
+            InsolationLaw::Orbital => (0, 0.0),
+            InsolationLaw::Legendre { p2 } => (1, p2),
+        };
+        let key = (
+            ins.orbit.flux.to_bits(),
+            ins.orbit.obliquity.to_bits(),
+            ins.orbit.eccentricity.to_bits(),
+            tag,
+            c.to_bits(),
+            nodes,
+        );
+        if let Ok(mut kept) = TABLES.lock()
+            && let Some(i) = kept.iter().position(|(k, _)| *k == key)
+        {
+            let hit = kept.remove(i);
+            let table = hit.1.clone();
+            kept.insert(0, hit);
+            return table;
+        }
+        let table = Arc::new(InsolationTable::new(ins, nodes));
+        if let Ok(mut kept) = TABLES.lock() {
+            kept.insert(0, (key, table.clone()));
+            kept.truncate(KEPT_TABLES);
+        }
+        table
+    }
+
     /// (∫_0^x s, ∫_0^x s P2) by cubic Hermite interpolation of the tables.
     pub fn integrals(&self, x: f64) -> (f64, f64) {
+        let (i, j, _, _) = self.integrals_and_slopes(x);
+        (i, j)
+    }
+
+    /// The interpolated (I, J) at x and their derivatives (I', J') (the
+    /// derivatives of the Hermite interpolants, so that they are exactly
+    /// consistent with [`InsolationTable::integrals`]).
+    pub fn integrals_and_slopes(&self, x: f64) -> (f64, f64, f64, f64) {
         let m = (self.s.len() - 1) as f64;
         let sign = if x < 0.0 { -1.0 } else { 1.0 };
         let u = (x.abs().min(1.0) * m).min(m - 1e-9);
-        let j = u.floor() as usize;
+        // u >= 0: truncation is the floor (and needs no libm call)
+        let j = u as usize;
         let t = u - j as f64;
         let h = 1.0 / m;
-        let herm = |y0: f64, y1: f64, d0: f64, d1: f64| {
-            let (t2, t3) = (t * t, t * t * t);
-            (2.0 * t3 - 3.0 * t2 + 1.0) * y0
-                + (t3 - 2.0 * t2 + t) * h * d0
-                + (-2.0 * t3 + 3.0 * t2) * y1
-                + (t3 - t2) * h * d1
-        };
+        let (t2, t3) = (t * t, t * t * t);
+        let (h00, h10, h01, h11) = (
+            2.0 * t3 - 3.0 * t2 + 1.0,
+            (t3 - 2.0 * t2 + t) * h,
+            -2.0 * t3 + 3.0 * t2,
+            (t3 - t2) * h,
+        );
+        // d/dx = m d/dt; the sign of x cancels in the derivative (I odd)
+        let (d00, d10, d01, d11) = (
+            (6.0 * t2 - 6.0 * t) * m,
+            3.0 * t2 - 4.0 * t + 1.0,
+            (-6.0 * t2 + 6.0 * t) * m,
+            3.0 * t2 - 2.0 * t,
+        );
+        let (a0, a1, b0, b1) = (self.i_s[j], self.i_s[j + 1], self.s[j], self.s[j + 1]);
+        let (c0, c1, e0, e1) = (
+            self.i_sp2[j],
+            self.i_sp2[j + 1],
+            self.sp2[j],
+            self.sp2[j + 1],
+        );
         (
-            sign * herm(self.i_s[j], self.i_s[j + 1], self.s[j], self.s[j + 1]),
-            sign * herm(
-                self.i_sp2[j],
-                self.i_sp2[j + 1],
-                self.sp2[j],
-                self.sp2[j + 1],
-            ),
+            sign * (h00 * a0 + h10 * b0 + h01 * a1 + h11 * b1),
+            sign * (h00 * c0 + h10 * e0 + h01 * c1 + h11 * e1),
+            d00 * a0 + d10 * b0 + d01 * a1 + d11 * b1,
+            d00 * c0 + d10 * e0 + d01 * c1 + d11 * e1,
         )
     }
 }
