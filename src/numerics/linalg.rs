@@ -18,6 +18,8 @@ pub struct Tridiagonal {
     // factors
     dl: Vec<f64>,
     d: Vec<f64>,
+    /// 1 / d: the solves multiply (a division per row would bound them).
+    inv_d: Vec<f64>,
     du: Vec<f64>,
     du2: Vec<f64>,
     swap: Vec<bool>,
@@ -42,6 +44,7 @@ impl Tridiagonal {
             rank_one: None,
             dl: vec![0.0; n],
             d: vec![0.0; n],
+            inv_d: vec![0.0; n],
             du: vec![0.0; n],
             du2: vec![0.0; n],
             swap: vec![false; n],
@@ -147,6 +150,9 @@ impl Tridiagonal {
         if n > 0 && (self.d[n - 1] == 0.0 || !self.d[n - 1].is_finite()) {
             return Err(Singular { row: n - 1 });
         }
+        for (r, d) in self.inv_d.iter_mut().zip(&self.d) {
+            *r = 1.0 / d;
+        }
         self.factored = true;
         if let Some((u, _)) = &self.rank_one {
             self.z.copy_from_slice(u);
@@ -177,12 +183,12 @@ impl Tridiagonal {
         if n == 0 {
             return;
         }
-        b[n - 1] /= self.d[n - 1];
+        b[n - 1] *= self.inv_d[n - 1];
         if n > 1 {
-            b[n - 2] = (b[n - 2] - self.du[n - 2] * b[n - 1]) / self.d[n - 2];
+            b[n - 2] = (b[n - 2] - self.du[n - 2] * b[n - 1]) * self.inv_d[n - 2];
         }
         for i in (0..n.saturating_sub(2)).rev() {
-            b[i] = (b[i] - self.du[i] * b[i + 1] - self.du2[i] * b[i + 2]) / self.d[i];
+            b[i] = (b[i] - self.du[i] * b[i + 1] - self.du2[i] * b[i + 2]) * self.inv_d[i];
         }
     }
 
@@ -230,12 +236,12 @@ impl Tridiagonal {
             return;
         }
         // Uᵀ y = b: U(i, i) = d[i], U(i, i+1) = du[i], U(i, i+2) = du2[i]
-        b[0] /= self.d[0];
+        b[0] *= self.inv_d[0];
         if n > 1 {
-            b[1] = (b[1] - self.du[0] * b[0]) / self.d[1];
+            b[1] = (b[1] - self.du[0] * b[0]) * self.inv_d[1];
         }
         for i in 2..n {
-            b[i] = (b[i] - self.du[i - 1] * b[i - 1] - self.du2[i - 2] * b[i - 2]) / self.d[i];
+            b[i] = (b[i] - self.du[i - 1] * b[i - 1] - self.du2[i - 2] * b[i - 2]) * self.inv_d[i];
         }
         // Lᵀ Pᵀ x = y, interchanges undone from the last one back
         for i in (0..n - 1).rev() {
