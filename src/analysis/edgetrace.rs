@@ -160,7 +160,9 @@ impl EdgeProblem {
             let big = (0..d)
                 .map(|i| (f[i] - dp * fp[i]).abs())
                 .fold(0.0f64, f64::max);
-            let lam = if big > 20.0 { 20.0 / big } else { 1.0 };
+            // damped only where the step is wild (at fixed edges a linear
+            // OLR makes the system linear in state and parameter)
+            let lam = if big > 100.0 { 100.0 / big } else { 1.0 };
             dp *= lam;
             for i in 0..d {
                 v[i] -= lam * f[i] - dp * fp[i];

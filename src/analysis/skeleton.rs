@@ -158,7 +158,7 @@ impl EdgeFamilies {
             open_p2: pl.albedo.open_p2,
             ice: pl.albedo.ice,
             threshold: pl.albedo.threshold,
-            table: InsolationTable::shared(&ins, 1024),
+            table: InsolationTable::shared(&ins, crate::physics::insolation::TABLE_NODES),
             faces: vec![0.0; n + 1],
             centres: vec![0.0; n],
             coalb: vec![0.0; n],

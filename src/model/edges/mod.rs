@@ -1032,7 +1032,10 @@ impl EdgeModel {
 fn unit_table(model: &Model) -> Arc<InsolationTable> {
     let mut unit = model.planet.orbit;
     unit.flux = 1.0;
-    InsolationTable::shared(&Insolation::new(unit, model.planet.insolation), 1024)
+    InsolationTable::shared(
+        &Insolation::new(unit, model.planet.insolation),
+        crate::physics::insolation::TABLE_NODES,
+    )
 }
 
 fn insolation_key(model: &Model) -> (f64, f64, InsolationLaw) {
