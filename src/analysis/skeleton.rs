@@ -319,6 +319,23 @@ impl EdgeFamilies {
         })
     }
 
+    /// The one-edge state at `x` with its cell temperatures: (flux,
+    /// [(cell centre x, T °C)]). The family solves only T(x_s) = T_s; a
+    /// state is an equilibrium of the step-albedo model only where every
+    /// ice cell is below T_s and every open cell above (the caller checks).
+    pub fn edge_profile(&mut self, topology: Topology, x: f64) -> Option<(f64, Vec<(f64, f64)>)> {
+        let q = self.edge_state(topology, x)?.flux;
+        let t = (0..self.n)
+            .map(|k| (self.centres[k], q * self.u[k] + self.v[k]))
+            .collect();
+        Some((q, t))
+    }
+
+    /// The threshold temperature T_s, °C.
+    pub fn threshold(&self) -> f64 {
+        self.threshold
+    }
+
     /// The corner of a no-edge branch: the flux at which the ice-free
     /// state's pole temperature (`IceFree`) or the snowball's equator
     /// temperature (`Snowball`) equals T_s, with the end temperature
