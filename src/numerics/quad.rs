@@ -55,6 +55,31 @@ pub fn p2(x: f64) -> f64 {
     1.5 * x * x - 0.5
 }
 
+/// The cubic Hermite basis on [0, 1], [h00, h10, h01, h11]:
+/// p(t) = h00 y0 + h10 m0 + h01 y1 + h11 m1 with end values y and end
+/// slopes m (per unit t); h00 = 2t³ - 3t² + 1, h10 = t³ - 2t² + t,
+/// h01 = -2t³ + 3t², h11 = t³ - t².
+pub fn hermite_basis(t: f64) -> [f64; 4] {
+    let (t2, t3) = (t * t, t * t * t);
+    [
+        2.0 * t3 - 3.0 * t2 + 1.0,
+        t3 - 2.0 * t2 + t,
+        -2.0 * t3 + 3.0 * t2,
+        t3 - t2,
+    ]
+}
+
+/// d/dt of [`hermite_basis`]: [6t² - 6t, 3t² - 4t + 1, -6t² + 6t, 3t² - 2t].
+pub fn hermite_basis_slope(t: f64) -> [f64; 4] {
+    let t2 = t * t;
+    [
+        6.0 * t2 - 6.0 * t,
+        3.0 * t2 - 4.0 * t + 1.0,
+        -6.0 * t2 + 6.0 * t,
+        3.0 * t2 - 2.0 * t,
+    ]
+}
+
 /// Value at `at` of the quadratic whose averages over the cells `idx`
 /// (faces `faces`) are `t[idx]`: the averages of 1, y, y² over a cell are
 /// solved for, y = x - at, by Cramer's rule (exact for quadratics). Used to

@@ -1,7 +1,7 @@
 //! Top-of-atmosphere insolation: daily means from the orbit (Berger 1978) and
 //! annual means by quadrature, or the Legendre form of North (1975).
 
-use crate::numerics::quad::{gauss_legendre, p2};
+use crate::numerics::quad::{gauss_legendre, hermite_basis, hermite_basis_slope, p2};
 use crate::physics::orbit::Orbit;
 use std::f64::consts::{FRAC_PI_2, PI};
 use std::sync::{Arc, Mutex};
@@ -39,6 +39,19 @@ fn day_terms(sin_phi: f64, cos_phi: f64, sin_d: f64, cos_d: f64) -> f64 {
     (h0 * num + den * sin_h0).max(0.0)
 }
 
+/// One node of the year quadrature on the piece λ in [a, b]: the
+/// Gauss-Legendre node s in [-1, 1] with weight wt, mapped by
+/// λ = a + (b - a)(3u² - 2u³), u = (s + 1)/2, to (sin δ, cos δ,
+/// weight × dλ/du / 2) with sin δ = sin ε sin λ, |δ| <= π/2.
+fn year_node(s: f64, wt: f64, a: f64, b: f64, sin_obl: f64) -> (f64, f64, f64) {
+    let s = 0.5 * (s + 1.0);
+    let lam = a + (b - a) * s * s * (3.0 - 2.0 * s);
+    let dlam = (b - a) * 6.0 * s * (1.0 - s);
+    let sin_d = sin_obl * lam.sin();
+    let cos_d = (1.0 - sin_d * sin_d).max(0.0).sqrt();
+    (sin_d, cos_d, 0.5 * wt * dlam)
+}
+
 /// How the annual-mean insolation is obtained.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum InsolationLaw {
@@ -74,18 +87,11 @@ impl Insolation {
     /// Annual-mean insolation for `orbit` under `law`.
     pub fn new(orbit: Orbit, law: InsolationLaw) -> Insolation {
         let (nodes, weights) = gauss_legendre(YEAR_POINTS);
-        let (a, b) = (-FRAC_PI_2, FRAC_PI_2);
+        let sin_obl = orbit.obliquity.sin();
         let day = nodes
             .iter()
             .zip(&weights)
-            .map(|(s, wt)| {
-                let s = 0.5 * (s + 1.0);
-                let lam = a + (b - a) * s * s * (3.0 - 2.0 * s);
-                let dlam = (b - a) * 6.0 * s * (1.0 - s);
-                let sin_d = orbit.obliquity.sin() * lam.sin();
-                let cos_d = (1.0 - sin_d * sin_d).max(0.0).sqrt();
-                (sin_d, cos_d, 0.5 * wt * dlam)
-            })
+            .map(|(&s, &wt)| year_node(s, wt, -FRAC_PI_2, FRAC_PI_2, sin_obl))
             .collect();
         Insolation {
             orbit,
@@ -126,15 +132,14 @@ impl Insolation {
                 }
                 let sin_phi = x.clamp(-1.0, 1.0);
                 let mut total = 0.0;
-                if nb == 2 && o.obliquity == self.day_obliquity {
+                let sin_obl = o.obliquity.sin();
+                // one piece at the precomputed obliquity: the stored nodes
+                let pts: &[f64] = if nb == 2 && o.obliquity == self.day_obliquity {
                     for &(sin_d, cos_d, w) in &self.day {
                         total += w * day_terms(sin_phi, cos_phi, sin_d, cos_d);
                     }
-                    let e = o.eccentricity;
-                    return o.flux * 2.0 * total / (2.0 * PI * PI * (1.0 - e * e).sqrt());
-                }
-                let sin_obl = o.obliquity.sin();
-                let pts: &[f64] = if nb == 4 {
+                    &[]
+                } else if nb == 4 {
                     &breaks
                 } else {
                     &[-FRAC_PI_2, FRAC_PI_2]
@@ -145,14 +150,9 @@ impl Insolation {
                         continue;
                     }
                     let mut piece = 0.0;
-                    for (s, wt) in self.nodes.iter().zip(&self.weights) {
-                        let s = 0.5 * (s + 1.0);
-                        let lam = a + (b - a) * s * s * (3.0 - 2.0 * s);
-                        let dlam = (b - a) * 6.0 * s * (1.0 - s);
-                        // sin δ = sin ε sin λ, |δ| <= π/2
-                        let sin_d = sin_obl * lam.sin();
-                        let cos_d = (1.0 - sin_d * sin_d).max(0.0).sqrt();
-                        piece += 0.5 * wt * dlam * day_terms(sin_phi, cos_phi, sin_d, cos_d);
+                    for (&s, &wt) in self.nodes.iter().zip(&self.weights) {
+                        let (sin_d, cos_d, w) = year_node(s, wt, a, b, sin_obl);
+                        piece += w * day_terms(sin_phi, cos_phi, sin_d, cos_d);
                     }
                     total += piece;
                 }
@@ -303,20 +303,12 @@ impl InsolationTable {
         let j = u as usize;
         let t = u - j as f64;
         let h = 1.0 / m;
-        let (t2, t3) = (t * t, t * t * t);
-        let (h00, h10, h01, h11) = (
-            2.0 * t3 - 3.0 * t2 + 1.0,
-            (t3 - 2.0 * t2 + t) * h,
-            -2.0 * t3 + 3.0 * t2,
-            (t3 - t2) * h,
-        );
-        // d/dx = m d/dt; the sign of x cancels in the derivative (I odd)
-        let (d00, d10, d01, d11) = (
-            (6.0 * t2 - 6.0 * t) * m,
-            3.0 * t2 - 4.0 * t + 1.0,
-            (-6.0 * t2 + 6.0 * t) * m,
-            3.0 * t2 - 2.0 * t,
-        );
+        let [h00, h10, h01, h11] = hermite_basis(t);
+        let (h10, h11) = (h10 * h, h11 * h);
+        // d/dx = m d/dt (the slope terms' h cancels); the sign of x cancels
+        // in the derivative (I odd)
+        let [d00, d10, d01, d11] = hermite_basis_slope(t);
+        let (d00, d01) = (d00 * m, d01 * m);
         let (a0, a1, b0, b1) = (self.i_s[j], self.i_s[j + 1], self.s[j], self.s[j + 1]);
         let (c0, c1, e0, e1) = (
             self.i_sp2[j],

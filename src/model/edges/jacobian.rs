@@ -54,12 +54,8 @@ impl EdgeModel {
             let (dma, dmb) = (slope(seg, seg).1 * c, slope(seg + 1, seg).1 * c);
             let base = self.knots[seg];
             for i in 0..=self.counts[seg] {
-                let t = i as f64 / c;
-                let (t2, t3) = (t * t, t * t * t);
-                let ds = (2.0 * t3 - 3.0 * t2 + 1.0) * dsa
-                    + (t3 - 2.0 * t2 + t) * dma
-                    + (-2.0 * t3 + 3.0 * t2) * dsb
-                    + (t3 - t2) * dmb;
+                let h = hermite_basis(i as f64 / c);
+                let ds = h[0] * dsa + h[1] * dma + h[2] * dsb + h[3] * dmb;
                 let x = self.faces[base + i];
                 self.dface[base + i] = if lat {
                     (1.0 - x * x).max(0.0).sqrt() * ds

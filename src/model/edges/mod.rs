@@ -64,7 +64,7 @@ mod bands;
 mod jacobian;
 use crate::numerics::grid::Spacing;
 use crate::numerics::linalg::{Singular, Tridiagonal, invert_small, negative_eigenvalues};
-use crate::numerics::quad::end_value;
+use crate::numerics::quad::{end_value, hermite_basis};
 use crate::physics::albedo::AlbedoKind;
 use crate::physics::insolation::{Insolation, InsolationLaw, InsolationTable};
 use crate::physics::radiation::Olr;
@@ -381,12 +381,8 @@ impl EdgeModel {
             let (ma, mb) = (slope_at(seg) * c, slope_at(seg + 1) * c);
             let base = self.knots[seg];
             for i in 0..=self.counts[seg] {
-                let t = i as f64 / c;
-                let (t2, t3) = (t * t, t * t * t);
-                let s = (2.0 * t3 - 3.0 * t2 + 1.0) * sa
-                    + (t3 - 2.0 * t2 + t) * ma
-                    + (-2.0 * t3 + 3.0 * t2) * sb
-                    + (t3 - t2) * mb;
+                let h = hermite_basis(i as f64 / c);
+                let s = h[0] * sa + h[1] * ma + h[2] * sb + h[3] * mb;
                 self.faces[base + i] = self.uncoord(s);
             }
             self.faces[base] = match self.knot_kind[seg] {
