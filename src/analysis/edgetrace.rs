@@ -72,6 +72,23 @@ impl EdgeProblem {
         }
     }
 
+    /// Whether, with the edges held fixed, the residual is affine in the
+    /// state and the continuation coordinate together: linear OLR and a
+    /// parameter entering as a source term (flux, radiation.a, the
+    /// threshold, CO2 in ln C). Then the state at a given edge is unique.
+    pub fn affine(&self) -> bool {
+        let linear = matches!(
+            self.em.model.planet.olr,
+            crate::physics::radiation::OlrLaw::Linear { .. }
+        );
+        linear
+            && match self.param {
+                Param::Flux | Param::OlrA | Param::Threshold => true,
+                Param::Co2 => self.log,
+                _ => false,
+            }
+    }
+
     /// The parameter value of continuation coordinate p.
     pub fn value(&self, p: f64) -> f64 {
         if self.log { p.exp() } else { p }
@@ -111,13 +128,26 @@ impl EdgeProblem {
     }
 
     /// Newton at fixed parameter coordinate p from v, damped to 20 K (and
-    /// 0.2 in an edge) per step. Returns the final max |F|.
+    /// 0.2 in an edge) per step. Returns the final max |F|. After a step
+    /// only the residual is evaluated; the Jacobian is factored again only
+    /// when another step is needed.
     pub fn newton(&mut self, v: &mut [f64], p: f64, tol: f64) -> Option<f64> {
         self.set_param(p);
         let d = v.len();
         let mut f = vec![0.0; d];
-        for _ in 0..40 {
-            self.factor(v, &mut f).ok()?;
+        self.factor(v, &mut f).ok()?;
+        for it in 0..40 {
+            if it > 0 {
+                self.residual(v, &mut f);
+                let res = max_abs(&f);
+                if !res.is_finite() {
+                    return None;
+                }
+                if res < tol.max(self.em.residual_floor()) {
+                    return Some(res);
+                }
+                self.factor(v, &mut f).ok()?;
+            }
             let res = max_abs(&f);
             if !res.is_finite() {
                 return None;
@@ -140,8 +170,19 @@ impl EdgeProblem {
     pub fn solve_at_edge(&mut self, v: &mut [f64], p: &mut f64, j: usize, tol: f64) -> Option<f64> {
         let d = v.len();
         let (mut f, mut fp) = (vec![0.0; d], vec![0.0; d]);
-        for _ in 0..40 {
+        for it in 0..40 {
             self.set_param(*p);
+            if it > 0 {
+                // the residual alone decides whether another step is needed
+                self.residual(v, &mut f);
+                let res = max_abs(&f);
+                if !res.is_finite() {
+                    return None;
+                }
+                if res < tol.max(self.em.residual_floor()) {
+                    return Some(res);
+                }
+            }
             self.factor(v, &mut f).ok()?;
             let res = max_abs(&f);
             if !res.is_finite() {
@@ -315,8 +356,9 @@ pub fn log_scale(param: Param, lo: f64) -> bool {
 /// come to a state for [`on_traced`] to try Newton from it.
 const CHORD_NEAR: f64 = 3.0;
 
-/// A seed: topology index, continuation coordinate, continuation state.
-type Seed = (usize, f64, Vec<f64>);
+/// A seed: topology index, continuation coordinate, continuation state,
+/// and whether it is a point of an edge-parametrised family.
+type Seed = (usize, f64, Vec<f64>, bool);
 
 /// Whether (v, p) is a point of raw branch `b`: for each chord of the
 /// branch whose parameter range holds p, Newton at p from the chord's
@@ -347,6 +389,35 @@ fn on_traced(pr: &mut EdgeProblem, b: &Branch, v: &[f64], p: f64, width: f64, to
         }
     }
     on_branch(b, v, p, width)
+}
+
+/// Whether raw branch `b` passes through point (v, p) of its topology where
+/// the state is unique given the last edge (one edge, or a mirror-symmetric
+/// family point), or given the parameter (no edge): some chord brackets
+/// that coordinate, with the parameter and every component interpolated
+/// there within 1e-2 of the range and 1 K (1/100 of x for an edge). Valid
+/// where the residual is affine at fixed edges ([`EdgeProblem::affine`]):
+/// the branch's point at that coordinate is then (v, p) itself, and the
+/// loose tolerances only guard against a chord that spans a corner.
+fn passes_through(b: &Branch, v: &[f64], p: f64, width: f64, edges: usize) -> bool {
+    let j = v.len() - 1;
+    let coord = |u: &[f64], q: f64| if edges == 0 { q } else { u[j] };
+    let e = coord(v, p);
+    b.points.windows(2).any(|w| {
+        let (a, c) = (&w[0], &w[1]);
+        let (ea, ec) = (coord(&a.u, a.p), coord(&c.u, c.p));
+        let (lo, hi) = (ea.min(ec), ea.max(ec));
+        if !(e >= lo && e <= hi) {
+            return false;
+        }
+        let r = if hi > lo { (e - ea) / (ec - ea) } else { 0.5 };
+        (a.p + r * (c.p - a.p) - p).abs() < 1e-2 * width.abs()
+            && a.u
+                .iter()
+                .zip(&c.u)
+                .zip(v)
+                .all(|((x, y), z)| (x + r * (y - x) - z).abs() < 1.0)
+    })
 }
 
 /// Traces every branch of the step-albedo `model` in `param` over
@@ -419,7 +490,7 @@ pub fn trace_edges(
             match pr.solve_at_edge(&mut v, &mut p, n + k - 1, tol) {
                 Some(_) if pr.margin(&v) > 0.0 => {
                     if inside(p) {
-                        seeds.push((ti, p, v.clone()));
+                        seeds.push((ti, p, v.clone(), true));
                     }
                     prev = Some((v, p));
                 }
@@ -485,7 +556,7 @@ pub fn trace_edges(
             }
             let mut v = pr.scaled(&u);
             if pr.newton(&mut v, p, tol).is_some() && pr.margin(&v) > 0.0 {
-                seeds.push((ti, p, v));
+                seeds.push((ti, p, v, false));
             }
         }
         for (ti, t) in topologies.iter().enumerate() {
@@ -501,7 +572,7 @@ pub fn trace_edges(
             };
             let mut v = vec![level; n];
             if pr.newton(&mut v, p, tol).is_some() && pr.margin(&v) > 0.0 {
-                seeds.push((ti, p, v));
+                seeds.push((ti, p, v, false));
             }
         }
         progress(&format!("seeds at {} = {value:.6}", param.key()));
@@ -513,11 +584,20 @@ pub fn trace_edges(
         ..Settings::for_range(clo, chi)
     };
     let mut raw: Vec<(usize, Branch)> = Vec::new();
-    for (ti, p, v) in &seeds {
-        if raw
-            .iter()
-            .any(|(tj, b)| tj == ti && on_traced(&mut problems[*ti], b, v, *p, width, tol))
-        {
+    for (ti, p, v, family) in &seeds {
+        // where the state is unique given the parameter (no edge) or the
+        // edge (one edge, or a mirror family point), a traced branch of the
+        // seed's topology through that coordinate holds the seed
+        let edges = topologies[*ti].edges();
+        let unique = problems[*ti].affine() && (edges <= 1 || *family);
+        if raw.iter().any(|(tj, b)| {
+            tj == ti
+                && if unique {
+                    passes_through(b, v, *p, width, edges)
+                } else {
+                    on_traced(&mut problems[*ti], b, v, *p, width, tol)
+                }
+        }) {
             continue;
         }
         let mut tracer = Tracer::new(&mut problems[*ti], settings);
@@ -526,12 +606,19 @@ pub fn trace_edges(
                 if {
                     // a retrace of a branch already found (the seed test missed it)
                     let pr = &mut problems[*ti];
+                    let unique = pr.affine() && edges <= 1;
                     let on = b
                         .points
                         .iter()
                         .filter(|q| {
-                            raw.iter()
-                                .any(|(tj, r)| tj == ti && on_traced(pr, r, &q.u, q.p, width, tol))
+                            raw.iter().any(|(tj, r)| {
+                                tj == ti
+                                    && if unique {
+                                        passes_through(r, &q.u, q.p, width, edges)
+                                    } else {
+                                        on_traced(pr, r, &q.u, q.p, width, tol)
+                                    }
+                            })
                         })
                         .count();
                     on * 10 >= b.points.len() * 9
