@@ -108,6 +108,18 @@ fn check_prints_resolved_scenario() {
     assert!(stdout.contains("flux = 1300.0"));
 }
 
+/// The flux of the edge-family corner fold of topology `label` in a trace
+/// summary.
+fn ef_corner(summary: &serde_json::Value, label: &str) -> f64 {
+    summary["edge_family"]["folds"]
+        .as_array()
+        .expect("edge_family folds")
+        .iter()
+        .find(|f| f["topology"] == label && f["corner"] == true)
+        .and_then(|f| f["orbit.flux"].as_f64())
+        .expect("corner fold")
+}
+
 #[test]
 fn trace_writes_outputs_and_rejects_bad_ranges() {
     let d = temp_dir("trace");
@@ -173,10 +185,47 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
         summary["sensitivity_units"]["orbit.obliquity"],
         "W m-2 / degree"
     );
-    // the default range ends while the snowball is still stable: said plainly
-    assert!(stdout.contains("open: still bistable at --to"), "{stdout}");
+    // the default range (0.8 to 1.15 of the flux) ends while the snowball
+    // is still stable: it grows until the snowball melts, and the window
+    // closes at the snowball's corner fold, which the edge-parametrised
+    // families place at the same flux to the two discretisations'
+    // difference (common practice, no source)
+    assert!(
+        stdout.contains("range extended from [1070.08, 1538.24]"),
+        "{stdout}"
+    );
+    assert_eq!(summary["range_extended"], true);
+    assert_eq!(summary["requested_range"][1], 1538.24);
     let w = &summary["bistable_windows"][0];
-    assert_eq!(w["open_at_to"], true, "{w}");
+    assert_eq!(w["open_at_to"], false, "{w}");
+    let melt = ef_corner(&summary, "snowball");
+    let to = w["to"].as_f64().unwrap();
+    assert!(
+        (to - melt).abs() < 1e-3 * melt,
+        "window ends at {to}, snowball melts at {melt}"
+    );
+    assert!(summary["range"][1].as_f64().unwrap() > to);
+    // a range the user gives is kept, and the open window said plainly
+    let d2 = temp_dir("trace-fixed");
+    let (code, stdout, stderr) = icefold(&[
+        "trace",
+        "--quiet",
+        "--to",
+        "1538.24",
+        "--out",
+        d2.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stdout.contains("open: still bistable at --to 1538.24"),
+        "{stdout}"
+    );
+    let s2: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d2.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(s2["range_extended"], false);
+    assert_eq!(s2["bistable_windows"][0]["open_at_to"], true);
+    let svg = std::fs::read_to_string(d2.join("hysteresis.svg")).unwrap();
+    assert!(svg.contains("bistable window open at orbit.flux = 1538.24"));
     let bad = temp_dir("trace-bad");
     for args in [
         vec!["trace", "--vary", "orbit.colour"],

@@ -122,6 +122,11 @@ fn window_open_ends(a: f64, b: f64, from: f64, to: f64) -> (bool, bool) {
     ((a - from).abs() <= tol, (b - to).abs() <= tol)
 }
 
+/// How many times `trace` widens a default range whose bistable window is
+/// still open at an end (by half its width, or a factor 2 for keys continued
+/// in their logarithm).
+const MAX_EXTENSIONS: usize = 6;
+
 /// Runs `trace`.
 pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
@@ -135,34 +140,68 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
         ..TraceOptions::default()
     };
     let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
-    let h = if sc.flag("seasons.enabled") {
-        // periodic climates through the annual map (same outputs)
-        let sm = sc
-            .seasonal_model()
-            .map_err(|e| CliError::Usage(format!("seasonal model: {e}")))?;
-        let sopts = crate::analysis::periodic::SeasonalTraceOptions::default();
-        let mut h = crate::analysis::periodic::trace_seasonal(
-            &sm,
-            param,
-            from,
-            to,
-            warm,
-            cold,
-            &sopts,
-            &mut progress,
-        );
-        crate::analysis::branches::resolve_jumps(&mut h.branches, (to - from).abs());
-        for f in h.branches.iter_mut().flat_map(|b| b.folds.iter_mut()) {
-            if f.jump_to.is_some() {
-                f.jump_note = Some(
-                    "seasonal trace: jump_to is the branch-list guess (nearest stable climate beyond the fold in the direction the state was moving), not integrated in time".into(),
-                );
+    let seasonal = sc.flag("seasons.enabled");
+    let run = |from: f64,
+               to: f64,
+               progress: &mut dyn FnMut(&str)|
+     -> Result<Hysteresis, CliError> {
+        if seasonal {
+            // periodic climates through the annual map (same outputs)
+            let sm = sc
+                .seasonal_model()
+                .map_err(|e| CliError::Usage(format!("seasonal model: {e}")))?;
+            let sopts = crate::analysis::periodic::SeasonalTraceOptions::default();
+            let mut h = crate::analysis::periodic::trace_seasonal(
+                &sm, param, from, to, warm, cold, &sopts, progress,
+            );
+            crate::analysis::branches::resolve_jumps(&mut h.branches, (to - from).abs());
+            for f in h.branches.iter_mut().flat_map(|b| b.folds.iter_mut()) {
+                if f.jump_to.is_some() {
+                    f.jump_note = Some(
+                        "seasonal trace: jump_to is the branch-list guess (nearest stable climate beyond the fold in the direction the state was moving), not integrated in time".into(),
+                    );
+                }
             }
+            Ok(h)
+        } else {
+            Ok(trace_all(
+                &model, param, from, to, warm, cold, &opts, progress,
+            ))
         }
-        h
-    } else {
-        trace_all(&model, param, from, to, warm, cold, &opts, &mut progress)
     };
+    let requested = (from, to);
+    let (mut from, mut to) = (from, to);
+    let mut h = run(from, to, &mut progress)?;
+    // a range the user did not give grows until every bistable window
+    // closes inside it (the snowball melts, the warm branch loses its ice),
+    // within the key's allowed range; annual-mean models only (a seasonal
+    // trace is too costly to repeat)
+    if !seasonal {
+        let (vlo, vhi) = param.range();
+        let log = crate::analysis::edgetrace::log_scale(param, from);
+        for _ in 0..MAX_EXTENSIONS {
+            let (mut lo_open, mut hi_open) = (false, false);
+            for &(a, b) in &h.bistable {
+                let (l, u) = window_open_ends(a, b, from, to);
+                lo_open |= l;
+                hi_open |= u;
+            }
+            let w = to - from;
+            let (mut nf, mut nt) = (from, to);
+            if hi_open && args.to.is_none() {
+                nt = decimal(if log { 2.0 * to } else { to + 0.5 * w }.min(vhi));
+            }
+            if lo_open && args.from.is_none() {
+                nf = decimal(if log { 0.5 * from } else { from - 0.5 * w }.max(vlo));
+            }
+            if nf == from && nt == to {
+                break;
+            }
+            (from, to) = (nf, nt);
+            progress(&format!("range extended to [{from}, {to}]"));
+            h = run(from, to, &mut progress)?;
+        }
+    }
     bar.finish();
     for b in &h.branches {
         for e in &b.ends {
@@ -193,6 +232,11 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     let mut summary = provenance(&sc, args);
     summary.insert("vary".into(), key.into());
     summary.insert("range".into(), serde_json::json!([from, to]));
+    summary.insert(
+        "requested_range".into(),
+        serde_json::json!([requested.0, requested.1]),
+    );
+    summary.insert("range_extended".into(), ((from, to) != requested).into());
     summary.insert("folds".into(), folds_json(&h, &model));
     summary.insert(
         "sensitivity_units".into(),
@@ -240,7 +284,26 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             .collect(),
     );
     out.add_json(dir.join("summary.json"), &summary);
-    let fig = hysteresis_figure(&h, sc.name())?;
+    let open: Vec<String> = h
+        .bistable
+        .iter()
+        .flat_map(|&(a, b)| {
+            let (l, u) = window_open_ends(a, b, from, to);
+            [(l, a), (u, b)]
+        })
+        .filter(|x| x.0)
+        .map(|x| format!("{}", decimal(x.1)))
+        .collect();
+    let title = if open.is_empty() {
+        sc.name().to_string()
+    } else {
+        format!(
+            "{} (bistable window open at {key} = {})",
+            sc.name(),
+            open.join(", ")
+        )
+    };
+    let fig = hysteresis_figure(&h, &title)?;
     out.add(dir.join("hysteresis.svg"), fig.svg);
     out.add(dir.join("hysteresis.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
@@ -263,6 +326,12 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
         sc.name(),
         h.branches.len()
     );
+    if (from, to) != requested {
+        s += &format!(
+            "  range extended from [{}, {}] until the hysteresis closes (give --from and --to to fix it)\n",
+            requested.0, requested.1
+        );
+    }
     for b in &h.branches {
         for f in &b.folds {
             let d = &f.point.diagnostics;
