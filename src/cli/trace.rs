@@ -122,9 +122,24 @@ fn window_open_ends(a: f64, b: f64, from: f64, to: f64) -> (bool, bool) {
     ((a - from).abs() <= tol, (b - to).abs() <= tol)
 }
 
+/// `x` rounded away from the range (up for `dir` > 0, down otherwise) to a
+/// multiple of the power of ten nearest a hundredth of the width `w`, so
+/// that an extended range ends at a number a user would write.
+fn round_out(x: f64, w: f64, dir: f64) -> f64 {
+    let step = 10f64.powf((w.abs() / 100.0).log10().floor());
+    if !(step.is_finite() && step > 0.0) {
+        return x;
+    }
+    if dir > 0.0 {
+        (x / step).ceil() * step
+    } else {
+        (x / step).floor() * step
+    }
+}
+
 /// How many times `trace` widens a default range whose bistable window is
-/// still open at an end (by half its width, or a factor 2 for keys continued
-/// in their logarithm).
+/// still open at an end (by its width, or a factor 2 for keys continued in
+/// their logarithm).
 const MAX_EXTENSIONS: usize = 6;
 
 /// Runs `trace`.
@@ -171,6 +186,30 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     };
     let requested = (from, to);
     let (mut from, mut to) = (from, to);
+    let skeleton = edge_family(&sc, &model, param);
+    // where the edge-parametrised families apply, their folds say at once
+    // how far a default range must reach (a tenth of the range beyond the
+    // outermost fold); the loop below still checks the traced windows
+    if let Some(folds) = skeleton["folds"].as_array() {
+        let (vlo, vhi) = param.range();
+        let ps: Vec<f64> = folds
+            .iter()
+            .filter_map(|f| f["orbit.flux"].as_f64())
+            .collect();
+        let w = to - from;
+        if let Some(top) = ps.iter().copied().reduce(f64::max)
+            && args.to.is_none()
+            && top >= to
+        {
+            to = decimal(round_out(top + 0.1 * w, w, 1.0).min(vhi));
+        }
+        if let Some(bottom) = ps.iter().copied().reduce(f64::min)
+            && args.from.is_none()
+            && bottom <= from
+        {
+            from = decimal(round_out(bottom - 0.1 * w, w, -1.0).max(vlo));
+        }
+    }
     let mut h = run(from, to, &mut progress)?;
     // a range the user did not give grows until every bistable window
     // closes inside it (the snowball melts, the warm branch loses its ice),
@@ -189,10 +228,10 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             let w = to - from;
             let (mut nf, mut nt) = (from, to);
             if hi_open && args.to.is_none() {
-                nt = decimal(if log { 2.0 * to } else { to + 0.5 * w }.min(vhi));
+                nt = decimal(if log { 2.0 * to } else { to + w }.min(vhi));
             }
             if lo_open && args.from.is_none() {
-                nf = decimal(if log { 0.5 * from } else { from - 0.5 * w }.max(vlo));
+                nf = decimal(if log { 0.5 * from } else { from - w }.max(vlo));
             }
             if nf == from && nt == to {
                 break;
@@ -274,7 +313,6 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             })
             .collect(),
     );
-    let skeleton = edge_family(&sc, &model, param);
     summary.insert("edge_family".into(), skeleton.clone());
     summary.insert(
         "failures".into(),
@@ -585,6 +623,13 @@ mod tests {
         assert_eq!(sensitivity_unit(Param::Flux, Param::IceAlbedo), "W m-2");
         assert_eq!(sensitivity_unit(Param::Flux, Param::OlrA), "1");
         assert_eq!(sensitivity_unit(Param::IceAlbedo, Param::Co2), "1 / ppm");
+    }
+
+    #[test]
+    fn extended_ends_are_round() {
+        assert_eq!(decimal(super::round_out(1822.959, 468.16, 1.0)), 1823.0);
+        assert_eq!(decimal(super::round_out(1002.3, 468.16, -1.0)), 1002.0);
+        assert_eq!(decimal(super::round_out(0.01234, 0.05, 1.0)), 0.0124);
     }
 
     #[test]
