@@ -250,6 +250,20 @@ impl<'a, P: Problem> Tracer<'a, P> {
     /// c = wu t_u, d = wp t_p, after `factor` and `d_param` have filled the
     /// factors and ws.fp. r is taken from ws.r, x written to ws.a.
     fn bordered(&mut self, tu: &[f64], tp: f64, s: f64) -> Result<f64, Singular> {
+        self.bordered_passes(tu, tp, s, 2)
+    }
+
+    /// [`Tracer::bordered`] with `passes` solves of the block elimination:
+    /// 2 adds one step of iterative refinement against the full bordered
+    /// system (the tangent), 1 is a plain block elimination (a Newton
+    /// correction, whose own iteration removes the rounding).
+    fn bordered_passes(
+        &mut self,
+        tu: &[f64],
+        tp: f64,
+        s: f64,
+        passes: usize,
+    ) -> Result<f64, Singular> {
         let n = tu.len();
         let (wu, wp) = (self.wu, self.wp);
         let mut y_total = 0.0;
@@ -258,7 +272,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
         ws.a.fill(0.0);
         let mut rhs_s = s;
         ws.tmp.copy_from_slice(&ws.r);
-        for pass in 0..2 {
+        for pass in 0..passes {
             // b = J⁻¹ F_p (once: the same in both passes), z = J⁻¹ r
             if pass == 0 {
                 ws.b.copy_from_slice(&ws.fp);
@@ -276,7 +290,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
                 ws.a[i] += ws.tmp[i] - y * ws.b[i];
             }
             y_total += y;
-            if pass == 1 {
+            if pass + 1 == passes {
                 break;
             }
             // residual of the full system: r - J x - F_p y, s - cᵀx - d y
@@ -365,7 +379,7 @@ impl<'a, P: Problem> Tracer<'a, P> {
             for i in 0..n {
                 self.ws.r[i] = -self.ws.f[i];
             }
-            let dp = self.bordered(tu, tp, -nres).map_err(|_| res)?;
+            let dp = self.bordered_passes(tu, tp, -nres, 1).map_err(|_| res)?;
             let step = max_abs(&self.ws.a);
             if !step.is_finite() || step > 20.0 * self.settings.state_scale {
                 return Err(res);
