@@ -150,10 +150,19 @@ fn folds(h: &Hysteresis) -> Vec<f64> {
         .collect()
 }
 
+/// How far (relative, in flux) a traced cap or belt point may lie from the
+/// enumerated family at its edge: two second-order discretisations with
+/// twice 30 or 45 cells per hemisphere, which differ most where a region vanishes
+/// (the traced one then keeps only the other regions' cells); a few times
+/// their largest difference over these sets, 1.1e-4 (common practice, no
+/// source).
+const POINT_TOLERANCE: f64 = 3e-4;
+
 #[test]
 fn traced_states_equal_the_enumerated_ones() {
     let mut r = Lcg(20261202);
     let (mut probes_checked, mut points_checked, mut paths_checked) = (0, 0, 0);
+    let mut worst = 0.0f64;
     for i in 0..20 {
         let (m, sets) = random_model(&mut r, i);
         let mut fam = EdgeFamilies::new(&m, REFINE * m.len()).unwrap();
@@ -234,8 +243,11 @@ fn traced_states_equal_the_enumerated_ones() {
                 };
                 let x = q.diagnostics.ice_edge_north_deg.to_radians().sin();
                 let want = fam.edge_state(topo, x).map(|e| e.flux);
+                if let Some(w) = want {
+                    worst = worst.max((w - q.p).abs() / q.p);
+                }
                 assert!(
-                    want.is_some_and(|w| (w - q.p).abs() < 1e-4 * q.p),
+                    want.is_some_and(|w| (w - q.p).abs() < POINT_TOLERANCE * q.p),
                     "set {i} {sets:?}: traced {} at S0 = {} edge {} deg, family gives {want:?}",
                     topo.label(),
                     q.p,
@@ -245,6 +257,7 @@ fn traced_states_equal_the_enumerated_ones() {
             }
         }
     }
+    eprintln!("largest relative flux difference of a traced point from its family: {worst:e}");
     assert!(
         probes_checked >= 100,
         "only {probes_checked} probes away from folds"

@@ -823,17 +823,7 @@ fn join(mut pieces: Vec<Piece>, width: f64, failures: &mut Vec<String>) -> Vec<P
         if ej == 1 {
             b.reverse();
         }
-        // a ends at the junction, b starts there; the side with the
-        // vanishing region may turn just before it (an artefact of two grids
-        // meeting): cut it there
-        if a.edges > b.edges {
-            trim_artefact(&mut a, b.points[0].p);
-        } else if b.edges > a.edges {
-            b.reverse();
-
-            trim_artefact(&mut b, a.points[a.points.len() - 1].p);
-            b.reverse();
-        }
+        // a ends at the junction, b starts there
         let na = a.points.len();
         let before = a.points[na - 1].p - a.points[na.saturating_sub(2)].p;
         let after = b.points.get(1).map_or(0.0, |q| q.p) - b.points[0].p;
@@ -889,27 +879,6 @@ fn join(mut pieces: Vec<Piece>, width: f64, failures: &mut Vec<String>) -> Vec<P
         }
     }
     pieces
-}
-
-/// Removes a turning point of `piece` (oriented to end at a junction) that
-/// lies closer to its end, in the parameter, than twice the gap between its
-/// end and the corner `corner_p` of the branch without the vanishing region:
-/// the limit of the shrinking region and the corner are the same state on
-/// two grids, which differ by their discretisation errors, and that
-/// difference would show as a fold. The piece then ends at that point.
-fn trim_artefact(piece: &mut Piece, corner_p: f64) {
-    let end = piece.points[piece.points.len() - 1].p;
-    let gap = (end - corner_p).abs();
-    if let Some(f) = piece.folds.last()
-        && (f.point.p - end).abs() < 2.0 * gap
-    {
-        let keep = f.after + 1;
-        let mut last = f.point.clone();
-        last.unstable_modes = piece.points[keep - 1].unstable_modes;
-        piece.points.truncate(keep);
-        piece.points.push(last);
-        piece.folds.pop();
-    }
 }
 
 /// Ends that may meet another piece: a topology event, or a corrector that
