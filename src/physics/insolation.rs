@@ -200,6 +200,9 @@ static TABLES: Mutex<Vec<(TableKey, Arc<InsolationTable>)>> = Mutex::new(Vec::ne
 
 /// Nodes of the tables the edge model and the edge families use: cubic
 /// Hermite error O(h⁴) with h = 1/512, below 1e-11 of S̄ where S̄ is smooth.
+/// Near zero obliquity S̄ behaves like sqrt(1 - x²) at the pole and the
+/// last interval errs by up to 5e-6 of ∫S̄ (1e-9 at 10 deg, 1e-10 at 23.44),
+/// measured against 8192 nodes.
 pub const TABLE_NODES: usize = 512;
 
 /// How many tables the process keeps (a trace with central differences in
@@ -208,12 +211,13 @@ const KEPT_TABLES: usize = 16;
 
 impl InsolationTable {
     /// Tables of `ins` (per unit flux) at `nodes` + 1 equally spaced x in
-    /// [0, 1]. Each interval is integrated by 4-point Gauss-Legendre, split at
+    /// [0, 1]. Each interval is integrated by 2-point Gauss-Legendre (error
+    /// O(h⁵) per interval, far below the Hermite error), split at
     /// the polar circle x = cos ε where S̄ loses smoothness, so the tables
     /// are smooth in the obliquity too (central differences in ε).
     pub fn new(ins: &Insolation, nodes: usize) -> InsolationTable {
         let m = nodes.max(16);
-        let (gz, gw) = gauss_legendre(4);
+        let (gz, gw) = gauss_legendre(2);
         let mut t = InsolationTable {
             i_s: vec![0.0; m + 1],
             i_sp2: vec![0.0; m + 1],
