@@ -447,7 +447,10 @@ pub fn resolve_jumps(branches: &mut [TracedBranch], width: f64) {
     let snapshot: Vec<TracedBranch> = branches.to_vec();
     for b in branches.iter_mut() {
         for f in b.folds.iter_mut() {
-            let near = stable_near(&b.points, f.after, |_| true);
+            // a corner fold is itself a stable point: the trend needs a
+            // neighbour at another parameter value
+            let pf = f.point.p;
+            let near = stable_near(&b.points, f.after, |q| q.p != pf);
             f.from_state = near.map_or(f.point.diagnostics.state, |q| q.diagnostics.state);
             let Some(nb) = near else {
                 continue;
