@@ -33,7 +33,11 @@ fn main() -> ExitCode {
     };
     match icefold::cli::run(&args) {
         Ok(text) => {
-            print!("{text}");
+            // a reader that closed the pipe (`| head`) is not an error of
+            // the run: the outputs are already published
+            use std::io::Write;
+            let mut out = std::io::stdout().lock();
+            let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
             ExitCode::SUCCESS
         }
         Err(e) => {

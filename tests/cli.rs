@@ -401,3 +401,21 @@ fn trace_rows_and_branches_are_not_repeated() {
         .collect();
     assert_eq!(branches.len(), 1, "{folds}");
 }
+
+#[test]
+fn a_closed_stdout_is_not_a_crash() {
+    // `icefold check | head -0`: the reader is gone before the text is
+    // written; the run succeeded and must say so without a panic
+    use std::process::{Command, Stdio};
+    let mut child = Command::new(env!("CARGO_BIN_EXE_icefold"))
+        .args(["check"])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("run icefold");
+    drop(child.stdout.take());
+    let out = child.wait_with_output().expect("wait");
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(0), "{stderr}");
+    assert!(!stderr.contains("panicked"), "{stderr}");
+}
