@@ -127,6 +127,15 @@ impl EdgeProblem {
         v
     }
 
+    /// max |F| of residual `f` and whether it is below `tol` (or the
+    /// rounding floor of the last factored state); `None` where it is not
+    /// finite.
+    fn converged(&self, f: &[f64], tol: f64) -> Option<(f64, bool)> {
+        let res = max_abs(f);
+        res.is_finite()
+            .then(|| (res, res < tol.max(self.em.residual_floor())))
+    }
+
     /// Newton at fixed parameter coordinate p from v, damped to 20 K (and
     /// 0.2 in an edge) per step. Returns the final max |F|. After a step
     /// only the residual is evaluated; the Jacobian is factored again only
@@ -135,24 +144,15 @@ impl EdgeProblem {
         self.set_param(p);
         let d = v.len();
         let mut f = vec![0.0; d];
-        self.factor(v, &mut f).ok()?;
         for it in 0..40 {
             if it > 0 {
                 self.residual(v, &mut f);
-                let res = max_abs(&f);
-                if !res.is_finite() {
-                    return None;
-                }
-                if res < tol.max(self.em.residual_floor()) {
+                if let (res, true) = self.converged(&f, tol)? {
                     return Some(res);
                 }
-                self.factor(v, &mut f).ok()?;
             }
-            let res = max_abs(&f);
-            if !res.is_finite() {
-                return None;
-            }
-            if res < tol.max(self.em.residual_floor()) {
+            self.factor(v, &mut f).ok()?;
+            if let (res, true) = self.converged(&f, tol)? {
                 return Some(res);
             }
             self.solve(&mut f);
@@ -175,20 +175,12 @@ impl EdgeProblem {
             if it > 0 {
                 // the residual alone decides whether another step is needed
                 self.residual(v, &mut f);
-                let res = max_abs(&f);
-                if !res.is_finite() {
-                    return None;
-                }
-                if res < tol.max(self.em.residual_floor()) {
+                if let (res, true) = self.converged(&f, tol)? {
                     return Some(res);
                 }
             }
             self.factor(v, &mut f).ok()?;
-            let res = max_abs(&f);
-            if !res.is_finite() {
-                return None;
-            }
-            if res < tol.max(self.em.residual_floor()) {
+            if let (res, true) = self.converged(&f, tol)? {
                 return Some(res);
             }
             self.d_param(v, &mut fp);
