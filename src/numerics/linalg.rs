@@ -117,37 +117,46 @@ impl Tridiagonal {
     /// rank-one term is present, z = T⁻¹ u for Sherman-Morrison.
     pub fn factor(&mut self) -> Result<(), Singular> {
         let n = self.len();
-        self.factored = false;
-        for i in 0..n {
-            self.d[i] = self.diag[i];
-            self.dl[i] = if i + 1 < n { self.lower[i + 1] } else { 0.0 };
-            self.du[i] = if i + 1 < n { self.upper[i] } else { 0.0 };
-            self.du2[i] = 0.0;
-            self.swap[i] = false;
+        self.factored = n == 0;
+        if n == 0 {
+            return Ok(());
         }
-        for i in 0..n.saturating_sub(1) {
-            if self.d[i].abs() >= self.dl[i].abs() {
-                if self.d[i] == 0.0 {
+        // slices of length n: the loops below run without bounds checks
+        let d = &mut self.d[..n];
+        let dl = &mut self.dl[..n];
+        let du = &mut self.du[..n];
+        let du2 = &mut self.du2[..n];
+        let swap = &mut self.swap[..n];
+        d.copy_from_slice(&self.diag[..n]);
+        dl[..n - 1].copy_from_slice(&self.lower[1..n]);
+        dl[n - 1] = 0.0;
+        du[..n - 1].copy_from_slice(&self.upper[..n - 1]);
+        du[n - 1] = 0.0;
+        du2.fill(0.0);
+        swap.fill(false);
+        for i in 0..n - 1 {
+            if d[i].abs() >= dl[i].abs() {
+                if d[i] == 0.0 {
                     return Err(Singular { row: i });
                 }
-                let f = self.dl[i] / self.d[i];
-                self.dl[i] = f;
-                self.d[i + 1] -= f * self.du[i];
+                let f = dl[i] / d[i];
+                dl[i] = f;
+                d[i + 1] -= f * du[i];
             } else {
-                let f = self.d[i] / self.dl[i];
-                self.d[i] = self.dl[i];
-                self.dl[i] = f;
-                let temp = self.du[i];
-                self.du[i] = self.d[i + 1];
-                self.d[i + 1] = temp - f * self.d[i + 1];
+                let f = d[i] / dl[i];
+                d[i] = dl[i];
+                dl[i] = f;
+                let temp = du[i];
+                du[i] = d[i + 1];
+                d[i + 1] = temp - f * d[i + 1];
                 if i + 2 < n {
-                    self.du2[i] = self.du[i + 1];
-                    self.du[i + 1] *= -f;
+                    du2[i] = du[i + 1];
+                    du[i + 1] *= -f;
                 }
-                self.swap[i] = true;
+                swap[i] = true;
             }
         }
-        if n > 0 && (self.d[n - 1] == 0.0 || !self.d[n - 1].is_finite()) {
+        if d[n - 1] == 0.0 || !d[n - 1].is_finite() {
             return Err(Singular { row: n - 1 });
         }
         for (r, d) in self.inv_d.iter_mut().zip(&self.d) {
@@ -171,24 +180,27 @@ impl Tridiagonal {
 
     fn solve_tridiagonal(&self, b: &mut [f64]) {
         let n = self.len();
-        for i in 0..n.saturating_sub(1) {
-            if self.swap[i] {
-                let temp = b[i];
-                b[i] = b[i + 1];
-                b[i + 1] = temp - self.dl[i] * b[i];
-            } else {
-                b[i + 1] -= self.dl[i] * b[i];
-            }
-        }
         if n == 0 {
             return;
         }
-        b[n - 1] *= self.inv_d[n - 1];
+        let b = &mut b[..n];
+        let (dl, du, du2) = (&self.dl[..n], &self.du[..n], &self.du2[..n]);
+        let (inv_d, swap) = (&self.inv_d[..n], &self.swap[..n]);
+        for i in 0..n - 1 {
+            if swap[i] {
+                let temp = b[i];
+                b[i] = b[i + 1];
+                b[i + 1] = temp - dl[i] * b[i];
+            } else {
+                b[i + 1] -= dl[i] * b[i];
+            }
+        }
+        b[n - 1] *= inv_d[n - 1];
         if n > 1 {
-            b[n - 2] = (b[n - 2] - self.du[n - 2] * b[n - 1]) * self.inv_d[n - 2];
+            b[n - 2] = (b[n - 2] - du[n - 2] * b[n - 1]) * inv_d[n - 2];
         }
         for i in (0..n.saturating_sub(2)).rev() {
-            b[i] = (b[i] - self.du[i] * b[i + 1] - self.du2[i] * b[i + 2]) * self.inv_d[i];
+            b[i] = (b[i] - du[i] * b[i + 1] - du2[i] * b[i + 2]) * inv_d[i];
         }
     }
 
