@@ -65,6 +65,9 @@ impl Problem for AnnualProblem {
     fn solve(&self, b: &mut [f64]) {
         self.jac.solve(b);
     }
+    fn solve_pair(&self, a: &mut [f64], b: &mut [f64]) {
+        self.jac.solve_pair(a, b);
+    }
     fn solve_transpose(&self, b: &mut [f64]) -> bool {
         self.jac.solve_transpose(b);
         true

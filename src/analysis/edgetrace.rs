@@ -242,6 +242,13 @@ impl Problem for EdgeProblem {
             *x *= EDGE_UNITS;
         }
     }
+    fn solve_pair(&self, a: &mut [f64], b: &mut [f64]) {
+        let n = self.em.cells();
+        self.em.solve_pair(a, b);
+        for x in a[n..].iter_mut().chain(b[n..].iter_mut()) {
+            *x *= EDGE_UNITS;
+        }
+    }
     fn jac_mul(&self, v: &[f64], y: &mut [f64]) {
         self.em.jac_mul(v, y, 1.0 / EDGE_UNITS);
     }

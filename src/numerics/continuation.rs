@@ -38,6 +38,13 @@ pub trait Problem {
     fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular>;
     /// Solves J x = b in place with the last factors.
     fn solve(&self, b: &mut [f64]);
+    /// Solves J x = a and J y = b in place with the last factors (the same
+    /// results as two calls of [`Problem::solve`]; a problem may overlap
+    /// the two).
+    fn solve_pair(&self, a: &mut [f64], b: &mut [f64]) {
+        self.solve(a);
+        self.solve(b);
+    }
     /// Solves Jᵀ x = b in place with the last factors; false where the
     /// problem cannot (b is then left unspecified).
     fn solve_transpose(&self, _b: &mut [f64]) -> bool {
@@ -276,9 +283,10 @@ impl<'a, P: Problem> Tracer<'a, P> {
             // b = J⁻¹ F_p (once: the same in both passes), z = J⁻¹ r
             if pass == 0 {
                 ws.b.copy_from_slice(&ws.fp);
-                self.problem.solve(&mut ws.b);
+                self.problem.solve_pair(&mut ws.b, &mut ws.tmp);
+            } else {
+                self.problem.solve(&mut ws.tmp);
             }
-            self.problem.solve(&mut ws.tmp);
             let c_z: f64 = (0..n).map(|i| wu * tu[i] * ws.tmp[i]).sum();
             let c_b: f64 = (0..n).map(|i| wu * tu[i] * ws.b[i]).sum();
             let denom = wp * tp - c_b;

@@ -296,9 +296,25 @@ impl EdgeModel {
     /// Solves J x = b in place with the last factors.
     pub fn solve(&self, b: &mut [f64]) {
         let n = self.n;
+        self.jac.solve(&mut b[..n]);
+        self.finish_solve(b);
+    }
+
+    /// [`EdgeModel::solve`] for two right-hand sides at once (the same
+    /// results bit for bit; the tridiagonal substitutions overlap).
+    pub fn solve_pair(&self, a: &mut [f64], b: &mut [f64]) {
+        let n = self.n;
+        self.jac.solve_pair(&mut a[..n], &mut b[..n]);
+        self.finish_solve(a);
+        self.finish_solve(b);
+    }
+
+    /// The rest of the block elimination once A⁻¹ b_T is in b_T:
+    /// x_e = S⁻¹(b_e - R A⁻¹ b_T), x_T = A⁻¹ b_T - Y x_e.
+    fn finish_solve(&self, b: &mut [f64]) {
+        let n = self.n;
         let k = self.edge_count();
         let (bt, be) = b.split_at_mut(n);
-        self.jac.solve(bt);
         let mut rhs = [0.0; 4];
         for a in 0..k {
             let rz: f64 = (0..n).map(|i| self.rows[a * n + i] * bt[i]).sum();
