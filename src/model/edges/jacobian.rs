@@ -270,12 +270,8 @@ impl EdgeModel {
         self.floor = 8.0 * f64::EPSILON * floor;
         self.jac.factor()?;
         // rows, A⁻¹C and the Schur complement
-        self.rows.fill(0.0);
         for jj in 0..k {
-            let (_, w) = self.edge_value(jj, t);
-            for (i, a) in w {
-                self.rows[jj * n + i] += a;
-            }
+            self.rows[jj] = self.edge_value(jj, t).1;
         }
         for jj in 0..k {
             let (src, dst) = (&self.cols[jj * (n + k)..jj * (n + k) + n], jj * n);
@@ -284,9 +280,7 @@ impl EdgeModel {
         }
         for a in 0..k {
             for b in 0..k {
-                let ry: f64 = (0..n)
-                    .map(|i| self.rows[a * n + i] * self.y[b * n + i])
-                    .sum();
+                let ry = self.row_dot(a, &self.y[b * n..(b + 1) * n]);
                 self.schur[a * k + b] = self.cols[b * (n + k) + n + a] - ry;
             }
         }
@@ -317,7 +311,7 @@ impl EdgeModel {
         let (bt, be) = b.split_at_mut(n);
         let mut rhs = [0.0; 4];
         for a in 0..k {
-            let rz: f64 = (0..n).map(|i| self.rows[a * n + i] * bt[i]).sum();
+            let rz = self.row_dot(a, bt);
             rhs[a] = be[a] - rz;
         }
         for a in 0..k {
@@ -347,8 +341,8 @@ impl EdgeModel {
             be[a] = (0..k).map(|c| self.schur_inv[c * k + a] * rhs[c]).sum();
         }
         for a in 0..k {
-            for i in 0..n {
-                bt[i] -= self.rows[a * n + i] * be[a];
+            for (i, w) in self.rows[a] {
+                bt[i] -= w * be[a];
             }
         }
         self.jac.solve_transpose(bt);
@@ -361,7 +355,7 @@ impl EdgeModel {
         let k = self.edge_count();
         self.jac.mul(&v[..n], &mut y[..n]);
         for a in 0..k {
-            y[n + a] = (0..n).map(|i| self.rows[a * n + i] * v[i]).sum::<f64>();
+            y[n + a] = self.row_dot(a, v);
         }
         for c in 0..k {
             let col = &self.cols[c * (n + k)..(c + 1) * (n + k)];
@@ -369,6 +363,11 @@ impl EdgeModel {
                 y[i] += col[i] * v[n + c] * edge_scale;
             }
         }
+    }
+
+    /// ∂g_a/∂T · v: the edge row a (four cells at most) against v.
+    fn row_dot(&self, a: usize, v: &[f64]) -> f64 {
+        self.rows[a].iter().map(|(i, w)| w * v[*i]).sum()
     }
 
     /// Number of unstable modes at the last factored state u (see the module

@@ -135,8 +135,9 @@ pub struct EdgeModel {
     jac: Tridiagonal,
     /// ∂(F, g)/∂e_j, column j at [j (n + k) ..].
     cols: Vec<f64>,
-    /// ∂g_j/∂T, row j at [j n ..].
-    rows: Vec<f64>,
+    /// ∂g_j/∂T: the (cell, weight) pairs of edge j's interpolation
+    /// ([`EdgeModel::edge_value`]; at most four cells, unused weights 0).
+    rows: Vec<[(usize, f64); 4]>,
     /// A⁻¹ C (temperature part of each column), column j at [j n ..].
     y: Vec<f64>,
     /// Schur complement S = D - R A⁻¹ C and its inverse, k × k row-major.
@@ -270,7 +271,7 @@ impl EdgeModel {
             valid: false,
             jac,
             cols: vec![0.0; (n + k) * k],
-            rows: vec![0.0; k * n],
+            rows: vec![[(0, 0.0); 4]; k],
             y: vec![0.0; n * k],
             schur: vec![0.0; k * k],
             schur_inv: vec![0.0; k * k],
