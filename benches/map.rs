@@ -1,6 +1,7 @@
 //! Regime-map figures (criterion, not timed tests): `cargo bench --bench map`.
 //! 91 obliquity slices at 90 bands over the default flux range on 1 and 2
-//! threads, and a brute-force grid of spin-ups (91 x 200 cells, each
+//! threads (and on 1 thread with the sub-grid ice fraction, the formulation
+//! before the ice edges became unknowns), and a brute-force grid of spin-ups (91 x 200 cells, each
 //! time-stepped from a warm and a cold start) on 2 threads. A summary after
 //! criterion's report prints the speed-up and the map against brute force
 //! as ratios of times measured in this run.
@@ -12,7 +13,8 @@ mod common;
 
 use common::Summary;
 use criterion::Criterion;
-use icefold::analysis::sweep::{MapSpec, Slice, compute_slice};
+use icefold::analysis::branches::{TraceOptions, trace_subgrid};
+use icefold::analysis::sweep::{MapSpec, Slice, compute_slice, reduce};
 use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
 use icefold::numerics::newton::{Workspace, spin_up};
@@ -32,6 +34,37 @@ fn slices(model: &Model, spec: &MapSpec) -> Vec<Slice> {
                 -60.0,
                 1e-10,
             )
+        })
+        .collect()
+}
+
+/// The same map with each slice traced by the sub-grid ice fraction (the
+/// formulation before the ice edges became unknowns), on the same options
+/// as `compute_slice`: the comparison the edge formulation must not lose.
+fn slices_subgrid(model: &Model, spec: &MapSpec) -> Vec<Slice> {
+    let opts = TraceOptions {
+        tolerance: 1e-10,
+        integrate_jumps: false,
+        sensitivities: false,
+        ..TraceOptions::default()
+    };
+    (0..spec.count)
+        .into_par_iter()
+        .map(|j| {
+            let mut m = model.clone();
+            let a = spec.across_value(j);
+            m.set_param(Param::Obliquity, a);
+            let h = trace_subgrid(
+                &m,
+                Param::Flux,
+                spec.vary_from,
+                spec.vary_to,
+                30.0,
+                -60.0,
+                &opts,
+                &mut |_| {},
+            );
+            reduce(spec, j, a, &h)
         })
         .collect()
 }
@@ -94,6 +127,10 @@ fn main() {
             b.iter(|| *out = Some(p.install(|| slices(&model, &spec))))
         });
     }
+    let p = pool(1);
+    g.bench_function("subgrid-threads=1", |b| {
+        b.iter(|| p.install(|| slices_subgrid(&model, &spec)))
+    });
     g.finish();
 
     let mut converged = None;
@@ -117,6 +154,11 @@ fn main() {
         "map on 2 threads vs 1 thread",
         &["map", "threads=2"],
         &["map", "threads=1"],
+    );
+    s.ratio(
+        "map (ice edges as unknowns) vs the sub-grid ice fraction, both on 1 thread",
+        &["map", "threads=1"],
+        &["map", "subgrid-threads=1"],
     );
     s.ratio(
         "map vs brute-force spin-up grid (both on 2 threads)",

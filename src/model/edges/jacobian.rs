@@ -125,12 +125,13 @@ impl EdgeModel {
         match self.model.planet.transport {
             Transport::Diffusive { diffusivity } => {
                 for face in 1..n {
+                    // dG_f/de = D (T_f - T_{f-1}) (-2 x_f x_f' - (1 - x_f²) Δc' / Δc) / Δc
                     let x = self.faces[face];
-                    let dc = self.centres[face] - self.centres[face - 1];
                     let ddc = self.dcentre[face] - self.dcentre[face - 1];
                     let dg = diffusivity
                         * (t[face] - t[face - 1])
-                        * (-2.0 * x * self.dface[face] / dc - (1.0 - x * x) * ddc / (dc * dc));
+                        * self.inv_dc[face]
+                        * (-2.0 * x * self.dface[face] - self.cond[face] * ddc);
                     col[face - 1] += dg;
                     col[face] -= dg;
                 }
@@ -214,41 +215,36 @@ impl EdgeModel {
         for i in 0..n {
             j.diag[i] = -olr.value_and_slope(t[i]).1;
         }
-        match self.model.planet.transport {
-            Transport::Diffusive { diffusivity } => {
-                for face in 1..n {
-                    let xf = self.faces[face];
-                    let c = diffusivity * (1.0 - xf * xf)
-                        / (self.centres[face] - self.centres[face - 1]);
-                    let (wl, wr) = (self.widths[face - 1], self.widths[face]);
-                    j.diag[face - 1] -= c / wl;
-                    j.upper[face - 1] += c / wl;
-                    j.diag[face] -= c / wr;
-                    j.lower[face] += c / wr;
-                }
+        // the weighted balances of residual_on_layout: the cell terms scaled
+        // by w_i / w̄, the face fluxes by 1 / w̄
+        if let Transport::Relaxation { rate } = self.model.planet.transport {
+            let span = 1.0 - self.x0;
+            for i in 0..n {
+                j.diag[i] -= rate;
             }
-            Transport::Relaxation { rate } => {
-                let span = 1.0 - self.x0;
-                for i in 0..n {
-                    j.diag[i] -= rate;
-                }
-                if let Some((uu, vv)) = j.rank_one.as_mut() {
-                    uu.fill(rate);
-                    for (v, w) in vv.iter_mut().zip(&self.widths) {
-                        *v = w / span;
-                    }
+            if let Some((uu, vv)) = j.rank_one.as_mut() {
+                uu.fill(rate);
+                for (v, w) in vv.iter_mut().zip(&self.widths) {
+                    *v = w / span;
                 }
             }
         }
-        for i in 0..n {
-            let w = self.widths[i] * self.per_width;
-            j.diag[i] *= w;
-            j.lower[i] *= w;
-            j.upper[i] *= w;
+        for (d, w) in j.diag.iter_mut().zip(&self.widths) {
+            *d *= w * self.per_width;
         }
         if let Some((uu, _)) = j.rank_one.as_mut() {
             for (x, w) in uu.iter_mut().zip(&self.widths) {
                 *x *= w * self.per_width;
+            }
+        }
+        if let Transport::Diffusive { diffusivity } = self.model.planet.transport {
+            let dp = diffusivity * self.per_width;
+            for face in 1..n {
+                let c = dp * self.cond[face];
+                j.diag[face - 1] -= c;
+                j.upper[face - 1] += c;
+                j.diag[face] -= c;
+                j.lower[face] += c;
             }
         }
         // rounding level of the weighted balances: 8 ulps of the largest

@@ -117,6 +117,10 @@ pub struct EdgeModel {
     faces: Vec<f64>,
     centres: Vec<f64>,
     widths: Vec<f64>,
+    /// Per face f in 1..n: 1 / (c_f - c_{f-1}) and the conductance geometry
+    /// (1 - x_f²) / (c_f - c_{f-1}) of the diffusive flux (entry 0 unused).
+    inv_dc: Vec<f64>,
+    cond: Vec<f64>,
     /// Cell means of s (1 - α) and of s, per unit flux.
     coalb: Vec<f64>,
     ins: Vec<f64>,
@@ -260,6 +264,8 @@ impl EdgeModel {
             faces: vec![0.0; n + 1],
             centres: vec![0.0; n],
             widths: vec![0.0; n],
+            inv_dc: vec![0.0; n],
+            cond: vec![0.0; n],
             coalb: vec![0.0; n],
             ins: vec![0.0; n],
             face_int: vec![(0.0, 0.0); n + 1],
@@ -420,6 +426,12 @@ impl EdgeModel {
             };
             self.ins[i] = (self.face_int[i + 1].0 - self.face_int[i].0) / w;
         }
+        for face in 1..self.n {
+            let x = self.faces[face];
+            let r = 1.0 / (self.centres[face] - self.centres[face - 1]);
+            self.inv_dc[face] = r;
+            self.cond[face] = (1.0 - x * x) * r;
+        }
         self.fill_coalbedo();
         self.laid.copy_from_slice(edges);
         self.laid_ok = true;
@@ -490,28 +502,30 @@ impl EdgeModel {
         let t = &u[..n];
         let q = self.model.planet.orbit.flux;
         let olr = self.olr();
+        // F_i = (w_i (Q s̄_i (1 - α) - OLR(T_i)) + G_{i+1/2} - G_{i-1/2}) / w̄
+        // with the diffusive flux G_f = D (1 - x_f²) (T_f - T_{f-1}) / (c_f - c_{f-1})
+        // (relaxation: the cell term gains rate (T̄ - T_i), no face fluxes)
+        let pw = self.per_width;
+        let (rate, tbar) = match self.model.planet.transport {
+            Transport::Relaxation { rate } => (rate, self.mean(t)),
+            Transport::Diffusive { .. } => (0.0, 0.0),
+        };
         for i in 0..n {
-            f[i] = q * self.coalb[i] - olr.value_and_slope(t[i]).0;
+            let cell = q * self.coalb[i] - olr.value_and_slope(t[i]).0;
+            let cell = if rate != 0.0 {
+                cell + rate * (tbar - t[i])
+            } else {
+                cell
+            };
+            f[i] = cell * (self.widths[i] * pw);
         }
-        match self.model.planet.transport {
-            Transport::Diffusive { diffusivity } => {
-                for face in 1..n {
-                    let xf = self.faces[face];
-                    let g = diffusivity * (1.0 - xf * xf) * (t[face] - t[face - 1])
-                        / (self.centres[face] - self.centres[face - 1]);
-                    f[face - 1] += g / self.widths[face - 1];
-                    f[face] -= g / self.widths[face];
-                }
+        if let Transport::Diffusive { diffusivity } = self.model.planet.transport {
+            let dp = diffusivity * pw;
+            for face in 1..n {
+                let g = dp * self.cond[face] * (t[face] - t[face - 1]);
+                f[face - 1] += g;
+                f[face] -= g;
             }
-            Transport::Relaxation { rate } => {
-                let tbar = self.mean(t);
-                for i in 0..n {
-                    f[i] += rate * (tbar - t[i]);
-                }
-            }
-        }
-        for i in 0..n {
-            f[i] *= self.widths[i] * self.per_width;
         }
         let ts = self.model.planet.albedo.threshold;
         for j in 0..k {
