@@ -71,8 +71,10 @@ pub struct Insolation {
     pub orbit: Orbit,
     /// Orbital or Legendre.
     pub law: InsolationLaw,
-    nodes: Vec<f64>,
-    weights: Vec<f64>,
+    /// The YEAR_POINTS Gauss-Legendre rule on [-1, 1], computed once per
+    /// process.
+    nodes: &'static [f64],
+    weights: &'static [f64],
     /// The year quadrature where no polar day or night breaks it (one piece
     /// λ in [-π/2, π/2]), precomputed for `day_obliquity`: (sin δ, cos δ,
     /// weight × dλ/ds) per node.
@@ -86,11 +88,13 @@ const YEAR_POINTS: usize = 40;
 impl Insolation {
     /// Annual-mean insolation for `orbit` under `law`.
     pub fn new(orbit: Orbit, law: InsolationLaw) -> Insolation {
-        let (nodes, weights) = gauss_legendre(YEAR_POINTS);
+        static RULE: std::sync::OnceLock<(Vec<f64>, Vec<f64>)> = std::sync::OnceLock::new();
+        let (nodes, weights) = RULE.get_or_init(|| gauss_legendre(YEAR_POINTS));
+        let (nodes, weights) = (nodes.as_slice(), weights.as_slice());
         let sin_obl = orbit.obliquity.sin();
         let day = nodes
             .iter()
-            .zip(&weights)
+            .zip(weights)
             .map(|(&s, &wt)| year_node(s, wt, -FRAC_PI_2, FRAC_PI_2, sin_obl))
             .collect();
         Insolation {
@@ -150,7 +154,7 @@ impl Insolation {
                         continue;
                     }
                     let mut piece = 0.0;
-                    for (&s, &wt) in self.nodes.iter().zip(&self.weights) {
+                    for (&s, &wt) in self.nodes.iter().zip(self.weights) {
                         let (sin_d, cos_d, w) = year_node(s, wt, a, b, sin_obl);
                         piece += w * day_terms(sin_phi, cos_phi, sin_d, cos_d);
                     }
