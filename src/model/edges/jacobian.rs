@@ -53,11 +53,12 @@ impl EdgeModel {
             let c = self.counts[seg] as f64;
             let (dma, dmb) = (slope(seg, seg).1 * c, slope(seg + 1, seg).1 * c);
             let base = self.knots[seg];
-            for i in 0..=self.counts[seg] {
-                let h = hermite_basis(i as f64 / c);
+            let cnt = self.counts[seg];
+            let hs = &self.basis[base + seg..=base + seg + cnt];
+            let fs = &self.faces[base..=base + cnt];
+            for ((d, h), x) in self.dface[base..=base + cnt].iter_mut().zip(hs).zip(fs) {
                 let ds = h[0] * dsa + h[1] * dma + h[2] * dsb + h[3] * dmb;
-                let x = self.faces[base + i];
-                self.dface[base + i] = if lat {
+                *d = if lat {
                     (1.0 - x * x).max(0.0).sqrt() * ds
                 } else {
                     ds
@@ -84,10 +85,15 @@ impl EdgeModel {
         }
         self.dface[n] = 0.0;
         // centres
-        for i in 0..n {
-            let (dlo, dhi) = (self.dface[i], self.dface[i + 1]);
-            self.dcentre[i] = if lat {
-                let (lo, hi) = (self.faces[i], self.faces[i + 1]);
+        let (faces, dface) = (&self.faces[..=n], &self.dface[..=n]);
+        for ((dcen, x), d) in self.dcentre[..n]
+            .iter_mut()
+            .zip(faces.windows(2))
+            .zip(dface.windows(2))
+        {
+            let (dlo, dhi) = (d[0], d[1]);
+            *dcen = if lat {
+                let (lo, hi) = (x[0], x[1]);
                 let da = |x: f64, d: f64| {
                     if d == 0.0 {
                         0.0
@@ -101,37 +107,48 @@ impl EdgeModel {
                 0.5 * (dlo + dhi)
             };
         }
-        // cell balances
+        // cell balances: q (A'(x_{i+1}) x'_{i+1} - A'(x_i) x'_i) - w'_i OLR(T_i),
+        // A' = (1 - α) s on the cell's segment
         let t = &u[..n];
         let q = self.model.planet.orbit.flux;
         let al = self.model.planet.albedo;
         let olr = self.olr();
         for seg in 0..segs {
             let ice = self.topology.regions[self.seg_region[seg]] == Surface::Ice;
-            for i in self.knots[seg]..self.knots[seg + 1] {
-                let da = |f: usize| {
-                    let (s, sp2) = self.face_slope[f];
-                    let a = if ice {
-                        (1.0 - al.ice) * s
-                    } else {
-                        (1.0 - al.open) * s - al.open_p2 * sp2
-                    };
-                    a * self.dface[f]
+            let (lo, hi) = (self.knots[seg], self.knots[seg + 1]);
+            let da = |(s, sp2): (f64, f64), d: f64| {
+                let a = if ice {
+                    (1.0 - al.ice) * s
+                } else {
+                    (1.0 - al.open) * s - al.open_p2 * sp2
                 };
-                let dw = self.dface[i + 1] - self.dface[i];
-                col[i] = q * (da(i + 1) - da(i)) - dw * olr.value_and_slope(t[i]).0;
+                a * d
+            };
+            let slopes = &self.face_slope[lo..=hi];
+            let ds = &dface[lo..=hi];
+            let mut left = da(slopes[0], ds[0]);
+            for (((ci, ti), sl), d) in col[lo..hi]
+                .iter_mut()
+                .zip(&t[lo..hi])
+                .zip(slopes.windows(2))
+                .zip(ds.windows(2))
+            {
+                let right = da(sl[1], d[1]);
+                *ci = q * (right - left) - (d[1] - d[0]) * olr.value_and_slope(*ti).0;
+                left = right;
             }
         }
         match self.model.planet.transport {
             Transport::Diffusive { diffusivity } => {
+                // dG_f/de = D (T_f - T_{f-1}) (-2 x_f x_f' - (1 - x_f²) Δc' / Δc) / Δc
+                let dcen = &self.dcentre[..n];
                 for face in 1..n {
-                    // dG_f/de = D (T_f - T_{f-1}) (-2 x_f x_f' - (1 - x_f²) Δc' / Δc) / Δc
-                    let x = self.faces[face];
-                    let ddc = self.dcentre[face] - self.dcentre[face - 1];
+                    let x = faces[face];
+                    let ddc = dcen[face] - dcen[face - 1];
                     let dg = diffusivity
                         * (t[face] - t[face - 1])
                         * self.inv_dc[face]
-                        * (-2.0 * x * self.dface[face] - self.cond[face] * ddc);
+                        * (-2.0 * x * dface[face] - self.cond[face] * ddc);
                     col[face - 1] += dg;
                     col[face] -= dg;
                 }
@@ -212,54 +229,54 @@ impl EdgeModel {
         let keep = j.rank_one.take();
         j.clear();
         j.rank_one = keep;
-        for i in 0..n {
-            j.diag[i] = -olr.value_and_slope(t[i]).1;
-        }
         // the weighted balances of residual_on_layout: the cell terms scaled
         // by w_i / w̄, the face fluxes by 1 / w̄
-        if let Transport::Relaxation { rate } = self.model.planet.transport {
-            let span = 1.0 - self.x0;
-            for i in 0..n {
-                j.diag[i] -= rate;
-            }
-            if let Some((uu, vv)) = j.rank_one.as_mut() {
-                uu.fill(rate);
-                for (v, w) in vv.iter_mut().zip(&self.widths) {
-                    *v = w / span;
+        let pw = self.per_width;
+        let ws = &self.widths[..n];
+        let rate = match self.model.planet.transport {
+            Transport::Relaxation { rate } => {
+                let span = 1.0 - self.x0;
+                if let Some((uu, vv)) = j.rank_one.as_mut() {
+                    for ((x, v), w) in uu.iter_mut().zip(vv.iter_mut()).zip(ws) {
+                        *x = rate * (w * pw);
+                        *v = w / span;
+                    }
                 }
+                rate
             }
-        }
-        for (d, w) in j.diag.iter_mut().zip(&self.widths) {
-            *d *= w * self.per_width;
-        }
-        if let Some((uu, _)) = j.rank_one.as_mut() {
-            for (x, w) in uu.iter_mut().zip(&self.widths) {
-                *x *= w * self.per_width;
-            }
+            Transport::Diffusive { .. } => 0.0,
+        };
+        for ((d, ti), w) in j.diag[..n].iter_mut().zip(t).zip(ws) {
+            let cell = -olr.value_and_slope(*ti).1;
+            let cell = if rate != 0.0 { cell - rate } else { cell };
+            *d = cell * (w * pw);
         }
         if let Transport::Diffusive { diffusivity } = self.model.planet.transport {
-            let dp = diffusivity * self.per_width;
-            for face in 1..n {
-                let c = dp * self.cond[face];
-                j.diag[face - 1] -= c;
-                j.upper[face - 1] += c;
-                j.diag[face] -= c;
-                j.lower[face] += c;
+            let dp = diffusivity * pw;
+            let (dg, lo, up) = (&mut j.diag[..n], &mut j.lower[..n], &mut j.upper[..n]);
+            for (face, g) in self.cond[..n].iter().enumerate().skip(1) {
+                let c = dp * g;
+                dg[face - 1] -= c;
+                up[face - 1] += c;
+                dg[face] -= c;
+                lo[face] += c;
             }
         }
         // rounding level of the weighted balances: 8 ulps of the largest
         // sum of the magnitudes of their terms
         let q = self.model.planet.orbit.flux;
+        let (dg, lo, up) = (&j.diag[..n], &j.lower[..n], &j.upper[..n]);
+        let cb = &self.coalb[..n];
         let mut floor = 0.0f64;
         for i in 0..n {
-            let w = self.widths[i] * self.per_width;
-            let mut m = j.diag[i].abs() * t[i].abs() + w * (q * self.coalb[i]).abs();
+            let w = ws[i] * pw;
+            let mut m = dg[i].abs() * t[i].abs() + w * (q * cb[i]).abs();
             m += w * olr.value_and_slope(t[i]).0.abs();
             if i > 0 {
-                m += j.lower[i].abs() * t[i - 1].abs();
+                m += lo[i].abs() * t[i - 1].abs();
             }
             if i + 1 < n {
-                m += j.upper[i].abs() * t[i + 1].abs();
+                m += up[i].abs() * t[i + 1].abs();
             }
             floor = floor.max(m);
         }

@@ -106,6 +106,9 @@ pub struct EdgeModel {
     seg_region: Vec<usize>,
     /// Face index of each knot (0, the edges and the equator, n).
     knots: Vec<usize>,
+    /// The cubic Hermite basis at each face of each segment (segment s's
+    /// faces from index knots[s] + s), fixed by the counts.
+    basis: Vec<[f64; 4]>,
     /// What each knot is.
     knot_kind: Vec<Knot>,
     /// Face index of each edge.
@@ -243,6 +246,12 @@ impl EdgeModel {
             .filter(|(k, _)| matches!(k, Knot::Edge(_)))
             .map(|(_, f)| *f)
             .collect();
+        // the Hermite basis at each face of each segment, t = i / count
+        // (segment s's count + 1 faces from basis[knots[s] + s])
+        let basis: Vec<[f64; 4]> = seg_counts
+            .iter()
+            .flat_map(|&c| (0..=c).map(move |i| hermite_basis(i as f64 / c as f64)))
+            .collect();
         let counts = seg_counts;
         let k = r - 1;
         let mut jac = Tridiagonal::new(n);
@@ -255,6 +264,7 @@ impl EdgeModel {
             counts,
             seg_region,
             knots,
+            basis,
             knot_kind,
             edge_face,
             n,
@@ -390,10 +400,12 @@ impl EdgeModel {
             };
             let (ma, mb) = (slope_at(seg) * c, slope_at(seg + 1) * c);
             let base = self.knots[seg];
-            for i in 0..=self.counts[seg] {
-                let h = hermite_basis(i as f64 / c);
+            let cnt = self.counts[seg];
+            let hs = &self.basis[base + seg..=base + seg + cnt];
+            let sine = self.model.grid.spacing == Spacing::Sine;
+            for (x, h) in self.faces[base..=base + cnt].iter_mut().zip(hs) {
                 let s = h[0] * sa + h[1] * ma + h[2] * sb + h[3] * mb;
-                self.faces[base + i] = self.uncoord(s);
+                *x = if sine { s } else { s.sin() };
             }
             self.faces[base] = match self.knot_kind[seg] {
                 Knot::Low => self.x0,
