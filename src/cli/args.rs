@@ -69,12 +69,25 @@ pub struct ScenarioOpts {
 /// Where outputs go and whether progress is shown.
 #[derive(Debug, Clone, Default, clap::Args)]
 pub struct OutputOpts {
-    /// Output directory (default: out/COMMAND).
-    #[arg(long, value_name = "DIR")]
+    /// Output directory (default: out/COMMAND). It holds this command's
+    /// outputs only and is replaced whole when they are ready.
+    #[arg(long, value_name = "DIR", value_parser = out_dir_arg)]
     pub out: Option<PathBuf>,
     /// No progress on stderr.
     #[arg(long, short)]
     pub quiet: bool,
+}
+
+/// `--out`: a directory name (not empty, not `.`, `..` or `/`).
+fn out_dir_arg(v: &str) -> Result<PathBuf, String> {
+    let p = PathBuf::from(v);
+    match p.components().next_back() {
+        _ if v.is_empty() => Err("an empty path; give a directory, e.g. --out out/run".into()),
+        Some(std::path::Component::Normal(_)) => Ok(p),
+        _ => Err(format!(
+            "`{v}` does not end in a directory name (the set replaces the whole directory, so not `.`, `..` or `/`)"
+        )),
+    }
 }
 
 fn param_keys() -> PossibleValuesParser {

@@ -33,6 +33,7 @@ impl CliError {
     pub fn exit_code(&self) -> u8 {
         match self {
             CliError::Usage(_) | CliError::Scenario(_) => 2,
+            CliError::Export(ExportError::Refused { .. }) => 2,
             CliError::Failed(_) | CliError::Export(_) => 1,
         }
     }

@@ -203,7 +203,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         &dir,
         &mut out,
     )?;
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     Ok(map_report(&spec, &slices) + &written_list(&written))
 }
 
@@ -693,6 +693,6 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         &dir,
         &mut out,
     )?;
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     Ok(map_report(&meta.spec, &slices) + &written_list(&written))
 }

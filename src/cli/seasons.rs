@@ -258,7 +258,7 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     out.add_json(dir.join("state.json"), &state_meta(&sc, &sm));
     out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     let mut s = format!(
         "{}: {years} years from {} ({steps} steps per year): global mean {:.3} C, ice fraction {:.4}, last year's largest change {:.3e} K\n",
         sc.name(),
@@ -736,7 +736,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     out.add(dir.join("profiles.png"), fig.png);
     out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     let mut s = format!(
         "{}: {} periodic climates ({steps} steps per year)\n",
         sc.name(),

@@ -123,7 +123,7 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
     out.add(dir.join("profiles.svg"), fig.svg);
     out.add(dir.join("profiles.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     let mut s = format!("{}: {} equilibria\n", sc.name(), search.equilibria.len());
     s += "  #  state            global mean C  ice fraction  ice edges (deg N)  stable  iterations\n";
     for (k, e) in search.equilibria.iter().enumerate() {

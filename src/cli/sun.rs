@@ -44,7 +44,7 @@ pub fn cmd_sun(args: &Args) -> Result<String, CliError> {
     out.add(dir.join("insolation.svg"), fig.svg);
     out.add(dir.join("insolation.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     let g = &model.grid;
     let mean: f64 = g
         .weights

@@ -345,7 +345,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     out.add(dir.join("hysteresis.svg"), fig.svg);
     out.add(dir.join("hysteresis.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.commit()?;
+    let written = out.publish(&dir)?;
     let mut edge_text = String::new();
     if let Some(folds) = skeleton["folds"].as_array() {
         edge_text += "edge-family folds (ice edge as unknown; see summary.json edge_family):\n";

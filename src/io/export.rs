@@ -59,6 +59,14 @@ pub enum ExportError {
         /// Why it was rejected.
         why: String,
     },
+    /// The output directory cannot be used as asked (empty, not a
+    /// directory, holding files icefold did not write, busy): bad input,
+    /// exit 2; nothing is written.
+    #[error("{what}")]
+    Refused {
+        /// What is wrong, naming the directory.
+        what: String,
+    },
     /// The output would exceed a format limit.
     #[error("format limit exceeded: {what}")]
     TooLarge {
@@ -135,6 +143,9 @@ fn temp_beside(path: &Path) -> Result<NamedTempFile, ExportError> {
     let mut prefix = std::ffi::OsString::from(".");
     prefix.push(file_name);
     prefix.push(".");
+    prefix.push(crate::io::publish::owner_tag());
+    prefix.push("-");
+    clean_stale_temps(&dir, file_name);
     let mut b = tempfile::Builder::new();
     b.prefix(&prefix).suffix(".tmp").rand_bytes(12);
     #[cfg(unix)]
@@ -143,6 +154,26 @@ fn temp_beside(path: &Path) -> Result<NamedTempFile, ExportError> {
         b.permissions(fs::Permissions::from_mode(0o666));
     }
     b.tempfile_in(&dir).map_err(|e| io_err(&dir, e))
+}
+
+/// Removes temporary files `.{file}.{host}-{pid}-{random}.tmp` in `dir`
+/// left by processes that no longer run (a kill -9 between staging and
+/// renaming).
+fn clean_stale_temps(dir: &Path, file_name: &std::ffi::OsStr) {
+    let prefix = format!(".{}.", file_name.to_string_lossy());
+    let Ok(entries) = fs::read_dir(dir) else {
+        return;
+    };
+    for e in entries.flatten() {
+        let n = e.file_name();
+        let n = n.to_string_lossy();
+        if let Some(rest) = n.strip_prefix(&prefix).and_then(|r| r.strip_suffix(".tmp"))
+            && let Some((tag, _)) = rest.rsplit_once('-')
+            && crate::io::publish::owner_gone(tag)
+        {
+            let _ = fs::remove_file(e.path());
+        }
+    }
 }
 
 /// One cell of a [`Table`].
@@ -373,6 +404,41 @@ impl OutputSet {
     /// Whether nothing is staged.
     pub fn is_empty(&self) -> bool {
         self.files.is_empty()
+    }
+
+    /// Publish the staged files as the whole content of the directory
+    /// `dir` (every staged path must lie inside it), in one step: see
+    /// [`crate::io::publish`]. Returns the written paths, in staging order.
+    pub fn publish(self, dir: &Path) -> Result<Vec<PathBuf>, ExportError> {
+        let mut files: Vec<(PathBuf, crate::io::publish::Writer<'_>)> = Vec::new();
+        for (path, content) in self.files {
+            let rel = path
+                .strip_prefix(dir)
+                .map_err(|_| ExportError::Refused {
+                    what: format!(
+                        "output `{}` is not inside --out `{}`",
+                        path.display(),
+                        dir.display()
+                    ),
+                })?
+                .to_path_buf();
+            let shown = path.clone();
+            let write: crate::io::publish::Writer<'_> = match content {
+                Content::Bytes(b) => Box::new(move |mut f: &fs::File| {
+                    f.write_all(&b).map_err(|e| io_err(&shown, e))
+                }),
+                Content::NetCdf(nc) => Box::new(move |f: &fs::File| {
+                    nc.write_file(f).map_err(|e| match e {
+                        ExportError::NetCdf { what } => ExportError::NetCdf {
+                            what: format!("{}: {what}", shown.display()),
+                        },
+                        other => other,
+                    })
+                }),
+            };
+            files.push((rel, write));
+        }
+        crate::io::publish::publish_dir(dir, files)
     }
 
     /// Write every staged file, all or nothing as far as the file system allows.

@@ -1,9 +1,11 @@
 //! Input and output: the scenario schema and its validation ([`scenario`],
-//! [`schema`]), tables and staged output sets ([`export`]), CF NetCDF
-//! ([`netcdf`]) and figures ([`plot`]). Output modules only read results.
+//! [`schema`]), tables and staged output sets ([`export`]), publishing an
+//! output directory in one step ([`publish`]), CF NetCDF ([`netcdf`]) and
+//! figures ([`plot`]). Output modules only read results.
 
 pub mod export;
 pub mod netcdf;
 pub mod plot;
+pub mod publish;
 pub mod scenario;
 pub mod schema;
