@@ -424,9 +424,9 @@ impl OutputSet {
                 .to_path_buf();
             let shown = path.clone();
             let write: crate::io::publish::Writer<'_> = match content {
-                Content::Bytes(b) => Box::new(move |mut f: &fs::File| {
-                    f.write_all(&b).map_err(|e| io_err(&shown, e))
-                }),
+                Content::Bytes(b) => {
+                    Box::new(move |mut f: &fs::File| f.write_all(&b).map_err(|e| io_err(&shown, e)))
+                }
                 Content::NetCdf(nc) => Box::new(move |f: &fs::File| {
                     nc.write_file(f).map_err(|e| match e {
                         ExportError::NetCdf { what } => ExportError::NetCdf {

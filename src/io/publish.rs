@@ -141,6 +141,12 @@ fn lock(parent: &Path, name: &OsStr, dir: &Path) -> Result<Lock, ExportError> {
     file.push(".lock");
     let path = parent.join(file);
     let start = Instant::now();
+    // ICEFOLD_LOCK_WAIT (seconds) shortens the wait, for tests
+    let wait = std::env::var("ICEFOLD_LOCK_WAIT")
+        .ok()
+        .and_then(|v| v.parse::<f64>().ok())
+        .filter(|v| v.is_finite() && *v >= 0.0)
+        .map_or(LOCK_WAIT, Duration::from_secs_f64);
     loop {
         match fs::OpenOptions::new()
             .write(true)
@@ -159,12 +165,12 @@ fn lock(parent: &Path, name: &OsStr, dir: &Path) -> Result<Lock, ExportError> {
                     let _ = fs::remove_file(&path);
                     continue;
                 }
-                if start.elapsed() >= LOCK_WAIT {
+                if start.elapsed() >= wait {
                     return Err(refused(format!(
                         "--out `{}`: another icefold run ({}) is publishing into it; waited {} s (remove `{}` if that run is gone)",
                         dir.display(),
                         if holder.is_empty() { "unknown" } else { holder },
-                        LOCK_WAIT.as_secs(),
+                        wait.as_secs_f64(),
                         path.display()
                     )));
                 }
