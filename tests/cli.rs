@@ -419,3 +419,47 @@ fn a_closed_stdout_is_not_a_crash() {
     assert_eq!(out.status.code(), Some(0), "{stderr}");
     assert!(!stderr.contains("panicked"), "{stderr}");
 }
+
+/// Inputs are read with bounded resources (README, bounded inputs): a
+/// device that never ends, an oversized file, a FIFO nobody writes to and
+/// over-long or control-character text are one-line errors with exit 2
+/// (common practice, no source).
+#[test]
+fn inputs_are_bounded() {
+    let dir = temp_dir("bounded");
+    std::fs::create_dir_all(&dir).unwrap();
+    let big = dir.join("big.toml");
+    std::fs::write(&big, "#".repeat(2 << 20)).unwrap();
+    let fifo = dir.join("fifo");
+    let made = std::process::Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .is_ok_and(|s| s.success());
+    let long_name = format!("name={}", "x".repeat(101));
+    let mut cases: Vec<(Vec<&str>, &str)> = vec![
+        (vec!["check", "/dev/zero"], "more than the 1 MiB"),
+        (vec!["check", big.to_str().unwrap()], "more than the 1 MiB"),
+        (vec!["check", dir.to_str().unwrap()], "is a directory"),
+        (vec!["check", "--set", &long_name], "at most 100 characters"),
+        (
+            vec!["check", "--set", "description=a\u{7}b"],
+            "control characters",
+        ),
+    ];
+    if made {
+        cases.push((vec!["check", fifo.to_str().unwrap()], "no data within 10 s"));
+    } else {
+        eprintln!("mkfifo unavailable: FIFO case skipped");
+    }
+    for (args, want) in cases {
+        let (code, _, err) = icefold(&args);
+        assert_eq!(code, 2, "{args:?}: {err}");
+        assert_eq!(err.trim().lines().count(), 1, "{args:?}: {err}");
+        assert!(err.contains(want), "{args:?}: {err}");
+    }
+    // exactly at the name limit is fine
+    let ok_name = format!("name={}", "x".repeat(100));
+    let (code, _, err) = icefold(&["check", "--set", &ok_name]);
+    assert_eq!(code, 0, "{err}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

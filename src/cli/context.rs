@@ -115,7 +115,7 @@ pub fn newton_options(sc: &Scenario) -> NewtonOptions {
 /// and interpolates it linearly in latitude onto the model's bands.
 pub fn read_start(path: &Path, model: &Model) -> Result<Start, CliError> {
     let bad = |why: String| CliError::Usage(format!("--start {}: {why}", path.display()));
-    let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
+    let text = crate::io::input::read_text(path, crate::io::input::TABLE_MAX_BYTES).map_err(bad)?;
     let mut lines = text
         .lines()
         .filter(|l| !l.trim().is_empty() && !l.starts_with('#'));

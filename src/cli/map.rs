@@ -586,7 +586,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
     let mut first: Option<ShardFile> = None;
     let mut slices: std::collections::BTreeMap<usize, Slice> = std::collections::BTreeMap::new();
     for f in &files {
-        let text = std::fs::read_to_string(f)
+        let text = crate::io::input::read_text(f, crate::io::input::SHARD_MAX_BYTES)
             .map_err(|e| usage(format!("cannot read {}: {e}", f.display())))?;
         let shard: ShardFile = serde_json::from_str(&text)
             .map_err(|e| usage(format!("{}: not a map shard ({e})", f.display())))?;

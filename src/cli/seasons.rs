@@ -65,7 +65,7 @@ fn side_file(path: &Path) -> std::path::PathBuf {
 pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, CliError> {
     let bad = |why: String| CliError::Usage(format!("--from {}: {why}", path.display()));
     let meta_path = side_file(path);
-    let meta_text = std::fs::read_to_string(&meta_path).map_err(|e| {
+    let meta_text = crate::io::input::read_text(&meta_path, crate::io::input::TABLE_MAX_BYTES).map_err(|e| {
         bad(format!(
             "cannot read its side file {} ({e}); a state is the state.csv and state.json written by `icefold run`",
             meta_path.display()
@@ -97,7 +97,7 @@ pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, Cl
             None => return Err(bad(format!("the side file names no {k}"))),
         }
     }
-    let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
+    let text = crate::io::input::read_text(path, crate::io::input::TABLE_MAX_BYTES).map_err(bad)?;
     let lines = text.lines();
     let mut rows = lines.filter(|l| !l.trim().is_empty() && !l.starts_with('#'));
     let cols: Vec<&str> = rows

@@ -164,10 +164,12 @@ impl Scenario {
         match path {
             None => Scenario::parse(DEFAULT_SCENARIO, DEFAULT_NAME, overrides),
             Some(p) => {
-                let text = std::fs::read_to_string(p).map_err(|e| ScenarioError::Read {
-                    path: p.display().to_string(),
-                    reason: e.to_string(),
-                })?;
+                let text = super::input::read_text(p, super::input::SCENARIO_MAX_BYTES).map_err(
+                    |reason| ScenarioError::Read {
+                        path: p.display().to_string(),
+                        reason,
+                    },
+                )?;
                 Scenario::parse(&text, &p.display().to_string(), overrides)
             }
         }
@@ -502,8 +504,29 @@ fn check_value(s: &KeySpec, v: &toml::Value) -> Result<toml::Value, ScenarioErro
             toml::Value::String(x) if c.contains(&x.as_str()) => Ok(v.clone()),
             _ => Err(out_of_range(value_text(v))),
         },
-        Kind::Text => match v {
-            toml::Value::String(_) => Ok(v.clone()),
+        Kind::Text { max } => match v {
+            toml::Value::String(x) => {
+                let n = x.chars().count();
+                let shown = || {
+                    let head: String = x.chars().take(20).collect();
+                    format!("\"{}…\" ({n} characters)", head.escape_debug())
+                };
+                if n > max {
+                    Err(out_of_range(shown()))
+                } else if x.chars().any(|c| c.is_control() && c != '\n' && c != '\t') {
+                    Err(ScenarioError::OutOfRange {
+                        key: s.key.to_string(),
+                        value: format!(
+                            "\"{}\"",
+                            x.chars().take(20).collect::<String>().escape_debug()
+                        ),
+                        allowed: "text without control characters (line breaks and tabs allowed)"
+                            .into(),
+                    })
+                } else {
+                    Ok(v.clone())
+                }
+            }
             _ => Err(wrong("text in quotes")),
         },
     }

@@ -24,8 +24,12 @@ pub enum Kind {
     Bool,
     /// One of the listed words.
     Choice(&'static [&'static str]),
-    /// Free text.
-    Text,
+    /// Free text of at most `max` characters, without control characters
+    /// other than line breaks and tabs.
+    Text {
+        /// Largest number of characters.
+        max: usize,
+    },
 }
 
 /// One documented scenario key.
@@ -65,7 +69,7 @@ pub const SCHEMA: &[KeySpec] = &[
     KeySpec {
         key: "name",
         label: "Scenario name",
-        kind: Kind::Text,
+        kind: Kind::Text { max: 100 },
         default: "\"unnamed\"",
         unit: "",
         doc: "Short name of the scenario.",
@@ -73,7 +77,7 @@ pub const SCHEMA: &[KeySpec] = &[
     KeySpec {
         key: "description",
         label: "Description",
-        kind: Kind::Text,
+        kind: Kind::Text { max: 4000 },
         default: "\"\"",
         unit: "",
         doc: "Free text.",
@@ -394,7 +398,7 @@ pub fn allowed_text(kind: Kind, unit: &str) -> String {
             .map(|w| format!("\"{w}\""))
             .collect::<Vec<_>>()
             .join(" or "),
-        Kind::Text => "text".into(),
+        Kind::Text { max } => format!("text, at most {max} characters"),
     }
 }
 
