@@ -463,3 +463,43 @@ fn inputs_are_bounded() {
     assert_eq!(code, 0, "{err}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// States below absolute zero are not climates (README, impossible
+/// results): with A = 1000 W m-2 and B = 1 W m-2 K-1 the linear OLR law
+/// balances the absorbed sunlight only below 0 K (T = (Q(1 - α) - A)/B;
+/// Budyko 1969 for the law). `solve` and `periodic` refuse (exit 1,
+/// nothing written); `trace` cuts the branches there and says so.
+#[test]
+fn states_below_absolute_zero_are_not_reported() {
+    let dir = temp_dir("abszero");
+    let sets = ["--set", "radiation.a=1000", "--set", "radiation.b=1"];
+    for cmd in ["solve", "periodic"] {
+        let out = dir.join(cmd);
+        let mut args = vec![cmd, "--out", out.to_str().unwrap(), "--quiet"];
+        args.extend(sets);
+        let (code, _, err) = icefold(&args);
+        assert_eq!(code, 1, "{cmd}: {err}");
+        assert!(err.contains("below absolute zero"), "{cmd}: {err}");
+        assert!(!out.exists(), "{cmd} wrote {}", out.display());
+    }
+    let out = dir.join("trace");
+    let mut args = vec!["trace", "--out", out.to_str().unwrap(), "--quiet"];
+    args.extend(sets);
+    let (code, _, err) = icefold(&args);
+    assert_eq!(code, 0, "{err}");
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let notes = summary["failures"].to_string();
+    assert!(notes.contains("below absolute zero"), "{notes}");
+    let branches = std::fs::read_to_string(out.join("branches.csv")).unwrap();
+    let header: Vec<&str> = branches.lines().next().unwrap().split(',').collect();
+    let col = header
+        .iter()
+        .position(|h| *h == "global_mean_temperature_c")
+        .unwrap();
+    for l in branches.lines().skip(1) {
+        let t: f64 = l.split(',').nth(col).unwrap().parse().unwrap();
+        assert!(t >= -273.15, "{l}");
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}

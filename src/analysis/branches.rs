@@ -257,12 +257,102 @@ pub fn trace_all(
     // the step albedo: ice edges as unknowns, wherever the formulation
     // covers the model
     if matches!(model.planet.albedo.kind, AlbedoKind::Step)
-        && let Ok(h) =
+        && let Ok(mut h) =
             super::edgetrace::trace_edges(model, param, lo, hi, warm, cold, opts, progress)
     {
+        drop_unphysical(model, &mut h);
         return h;
     }
-    trace_subgrid(model, param, lo, hi, warm, cold, opts, progress)
+    let mut h = trace_subgrid(model, param, lo, hi, warm, cold, opts, progress);
+    drop_unphysical(model, &mut h);
+    h
+}
+
+/// Removes the states below absolute zero (or not finite) from every
+/// branch: they are not climates. A branch is cut where its states cross
+/// absolute zero (the cut end reads [`EndReason::Unphysical`]), folds and
+/// jump targets among the removed states go with them, the branches are
+/// renumbered and the bistable windows recomputed; each cut is named in
+/// `failures`.
+pub fn drop_unphysical(model: &Model, h: &mut Hysteresis) {
+    use crate::model::climate::below_absolute_zero;
+    let bad = |pt: &TracedPoint| below_absolute_zero(model, &pt.temperature).is_some();
+    if !h.branches.iter().any(|b| b.points.iter().any(bad)) {
+        return;
+    }
+    let key = h.param.key();
+    let mut kept: Vec<TracedBranch> = Vec::new();
+    for b in std::mem::take(&mut h.branches) {
+        let m = b.points.len();
+        let flags: Vec<bool> = b.points.iter().map(bad).collect();
+        let removed = flags.iter().filter(|f| **f).count();
+        if removed > 0 {
+            let coldest = b
+                .points
+                .iter()
+                .filter_map(|pt| below_absolute_zero(model, &pt.temperature).map(|c| (c, pt.p)))
+                .min_by(|a, c| a.0.0.total_cmp(&c.0.0));
+            if let Some(((t, lat), p)) = coldest {
+                h.failures.push(format!(
+                    "branch {}: {removed} of its {m} states lie below absolute zero (coldest {t:.6} C at latitude {lat:.4} deg, {key} = {p}): not climates, removed",
+                    b.id
+                ));
+            }
+        }
+        let mut a = 0;
+        while a < m {
+            if flags[a] {
+                a += 1;
+                continue;
+            }
+            let mut e = a;
+            while e < m && !flags[e] {
+                e += 1;
+            }
+            if e - a >= 2 {
+                let folds = b
+                    .folds
+                    .iter()
+                    .filter(|f| f.after >= a && f.after + 1 < e && !bad(&f.point))
+                    .cloned()
+                    .map(|mut f| {
+                        f.after -= a;
+                        if f.jump_to.as_ref().is_some_and(bad) {
+                            f.jump_to = None;
+                            f.jump_note = Some(
+                                "the jump target lies below absolute zero: not a climate".into(),
+                            );
+                        }
+                        f
+                    })
+                    .collect();
+                let ends = [
+                    if a == 0 {
+                        b.ends[0].clone()
+                    } else {
+                        EndReason::Unphysical(b.points[a].p)
+                    },
+                    if e == m {
+                        b.ends[1].clone()
+                    } else {
+                        EndReason::Unphysical(b.points[e - 1].p)
+                    },
+                ];
+                kept.push(TracedBranch {
+                    id: 0,
+                    points: b.points[a..e].to_vec(),
+                    folds,
+                    ends,
+                });
+            }
+            a = e;
+        }
+    }
+    for (i, b) in kept.iter_mut().enumerate() {
+        b.id = i + 1;
+    }
+    h.bistable = bistable_windows(&kept, h.range.0, h.range.1);
+    h.branches = kept;
 }
 
 /// Traces every branch of `model` in `param` over [lo, hi] on the

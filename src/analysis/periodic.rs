@@ -262,6 +262,18 @@ pub fn find_periodic(
     let mut failures = Vec::new();
     for s in starts {
         match periodic_from(sm, s, opts) {
+            Ok(p) if crate::model::climate::below_absolute_zero(sm.model(), &p.start).is_some() => {
+                let (temperature_c, latitude_deg) =
+                    crate::model::climate::below_absolute_zero(sm.model(), &p.start)
+                        .unwrap_or((f64::NAN, f64::NAN));
+                failures.push((
+                    s.label.clone(),
+                    SeasonalError::Unphysical {
+                        temperature_c,
+                        latitude_deg,
+                    },
+                ));
+            }
             Ok(p) => {
                 let dup = climates.iter().any(|o| {
                     o.start

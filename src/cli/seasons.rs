@@ -196,9 +196,15 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     for y in 0..years {
         let before = t.clone();
         let mut rows = Vec::with_capacity(steps);
+        let mut cold: Option<(f64, f64, f64)> = None;
         let res = sm.year_with(&mut t, &mut |k, model, s| {
             let (north, south) = polar_ice_edges(model, s);
             let frac = (k + 1) as f64 / steps as f64;
+            if cold.is_none()
+                && let Some((tc, lat)) = crate::model::climate::below_absolute_zero(model, s)
+            {
+                cold = Some((y as f64 + frac, tc, lat));
+            }
             rows.push(vec![
                 Cell::Num(y as f64 + frac),
                 Cell::Num(frac * DAYS_PER_YEAR),
@@ -210,6 +216,12 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
         });
         if let Err(e) = res {
             failure = Some(format!("in year {}: {e}", y + 1));
+            break;
+        }
+        if let Some((when, tc, lat)) = cold {
+            failure = Some(format!(
+                "at year {when:.4}: the temperature fell below absolute zero ({tc:.6} C at latitude {lat:.4} deg), which no climate can; the linear OLR law A + B T is far outside its validity"
+            ));
             break;
         }
         for r in rows {

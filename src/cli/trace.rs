@@ -169,6 +169,8 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             let mut h = crate::analysis::periodic::trace_seasonal(
                 &sm, param, from, to, warm, cold, &sopts, progress,
             );
+            // (the states at the start of each year)
+            crate::analysis::branches::drop_unphysical(sm.model(), &mut h);
             crate::analysis::branches::resolve_jumps(&mut h.branches, (to - from).abs());
             for f in h.branches.iter_mut().flat_map(|b| b.folds.iter_mut()) {
                 if f.jump_to.is_some() {

@@ -60,6 +60,25 @@ pub struct Diagnostics {
     pub energy_imbalance: f64,
 }
 
+/// Absolute zero, °C.
+pub const ABSOLUTE_ZERO_C: f64 = -273.15;
+
+/// The coldest band of `t` (°C, latitude deg) when it lies below absolute
+/// zero or is not finite: such a profile is not a climate. `None` when
+/// every band is physical.
+pub fn below_absolute_zero(model: &Model, t: &[f64]) -> Option<(f64, f64)> {
+    let (i, &tmin) = t.iter().enumerate().min_by(|a, b| a.1.total_cmp(b.1))?;
+    if tmin >= ABSOLUTE_ZERO_C && t.iter().all(|x| x.is_finite()) {
+        return None;
+    }
+    let lat = model
+        .grid
+        .centres
+        .get(i)
+        .map_or(f64::NAN, |x| x.asin().to_degrees());
+    Some((tmin, lat))
+}
+
 /// Describes profile `t`.
 pub fn diagnose(model: &Model, t: &[f64]) -> Diagnostics {
     let g = &model.grid;
@@ -235,6 +254,12 @@ pub fn equilibrium_from(
             newton(model, &mut t, opts, &mut ws)?
         }
     };
+    if let Some((temperature_c, latitude_deg)) = below_absolute_zero(model, &t) {
+        return Err(SolveError::Unphysical {
+            temperature_c,
+            latitude_deg,
+        });
+    }
     let mut f = vec![0.0; model.len()];
     model.evaluate(&t, &mut f, None);
     let residual = f.iter().fold(0.0f64, |m, x| m.max(x.abs()));

@@ -74,6 +74,16 @@ pub enum SeasonalError {
         /// Row of the zero pivot.
         row: usize,
     },
+    /// The state lies below absolute zero somewhere: not a climate.
+    #[error(
+        "the periodic state reached lies below absolute zero ({temperature_c:.6} C at latitude {latitude_deg:.4} deg at the start of the year): not a climate (the linear OLR law A + B T is far outside its validity)"
+    )]
+    Unphysical {
+        /// Coldest temperature, °C.
+        temperature_c: f64,
+        /// Its latitude, deg.
+        latitude_deg: f64,
+    },
     /// Temperatures left the finite numbers.
     #[error("the temperature became NaN or infinite at time step {step}")]
     NonFinite {

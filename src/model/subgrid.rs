@@ -348,7 +348,8 @@ impl Model {
     /// Ice area fraction of the planet: the covered length in x over the
     /// domain length (step law), or Σ w_i f(T_i) (smooth law).
     pub fn ice_area_fraction(&self, t: &[f64]) -> f64 {
-        match self.planet.albedo.kind {
+        // a sum of area fractions: outside [0, 1] only by round-off
+        let f = match self.planet.albedo.kind {
             AlbedoKind::Step if matches!(self.planet.transport, Transport::Relaxation { .. }) => {
                 self.grid
                     .weights
@@ -372,7 +373,8 @@ impl Model {
                 .zip(t)
                 .map(|(w, &ti)| w * self.planet.albedo.ice_weight(ti).0)
                 .sum(),
-        }
+        };
+        f.clamp(0.0, 1.0)
     }
 }
 

@@ -166,6 +166,9 @@ pub enum EndReason {
     /// The branch came back onto points it had already traced (a closed
     /// loop of equilibria).
     Loop(f64),
+    /// Beyond p the states fall below absolute zero (not climates; the
+    /// branch is cut there).
+    Unphysical(f64),
 }
 
 impl std::fmt::Display for EndReason {
@@ -181,6 +184,10 @@ impl std::fmt::Display for EndReason {
             EndReason::PointLimit => write!(f, "point limit reached"),
             EndReason::Event(p) => write!(f, "the ice topology changes at p = {p}"),
             EndReason::Loop(p) => write!(f, "closed loop: came back to p = {p}"),
+            EndReason::Unphysical(p) => write!(
+                f,
+                "cut at p = {p}: beyond it the states fall below absolute zero"
+            ),
         }
     }
 }

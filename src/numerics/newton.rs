@@ -41,6 +41,16 @@ pub enum SolveError {
         /// Row of the zero pivot.
         row: usize,
     },
+    /// The solution lies below absolute zero somewhere: not a climate.
+    #[error(
+        "the equilibrium reached lies below absolute zero ({temperature_c:.6} C at latitude {latitude_deg:.4} deg): not a climate (the linear OLR law A + B T is far outside its validity)"
+    )]
+    Unphysical {
+        /// Coldest temperature, °C.
+        temperature_c: f64,
+        /// Its latitude, deg.
+        latitude_deg: f64,
+    },
     /// A non-finite value appeared.
     #[error("the solution left the finite numbers (temperature or flux became NaN or infinite)")]
     NonFinite,
