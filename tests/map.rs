@@ -371,3 +371,58 @@ fn fold_curve_passes_through_slice_folds() {
     }
     assert!(checked >= 2);
 }
+
+/// A slice that fails is reported as failed, never as "no stable climate"
+/// (README, impossible results). With B = 1 W m-2 K-1, A = 600 and 1000
+/// W m-2 put every equilibrium of the flux range below absolute zero
+/// (T = (Q(1 - α) - A)/B, Budyko 1969 for the law), A = 200 does not: the
+/// map flags slices 1 and 2 in map.nc and summary.json; a map whose every
+/// slice fails exits 1 and writes nothing.
+#[test]
+fn failed_slices_are_reported_not_mapped_as_empty() {
+    use icefold::io::netcdf::FILL_I32;
+    let dir = temp_dir("failed-slices");
+    let args = |across: &str, out: &Path| {
+        vec![
+            "map".to_string(),
+            "--across".into(),
+            across.into(),
+            "--set".into(),
+            "radiation.b=1".into(),
+            "--cells".into(),
+            "20".into(),
+            "--quiet".into(),
+            "--out".into(),
+            out.to_str().unwrap().into(),
+        ]
+    };
+    let out = dir.join("some");
+    let a = args("radiation.a=200:1000:3", &out);
+    let (code, stdout, err) = icefold(&a.iter().map(String::as_str).collect::<Vec<_>>());
+    assert_eq!(code, 0, "{err}");
+    assert!(stdout.contains("2 of 3 slices failed"), "{stdout}");
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let failed: Vec<u64> = summary["failed_slices"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["slice"].as_u64().unwrap())
+        .collect();
+    assert_eq!(failed, vec![1, 2]);
+    let mut r = netcdf3::FileReader::open(out.join("map.nc")).unwrap();
+    let flags = r.read_var_i32("slice_failed").unwrap();
+    assert_eq!(flags, vec![0, 1, 1]);
+    let regime = r.read_var_i32("regime").unwrap();
+    for (k, v) in regime.iter().enumerate() {
+        // [flux][slice]: slices 1 and 2 are missing, slice 0 is not
+        assert_eq!(*v == FILL_I32, k % 3 != 0, "cell {k}: {v}");
+    }
+    let none = dir.join("none");
+    let a = args("radiation.a=900:1000:2", &none);
+    let (code, _, err) = icefold(&a.iter().map(String::as_str).collect::<Vec<_>>());
+    assert_eq!(code, 1, "{err}");
+    assert!(err.contains("every slice of the map failed"), "{err}");
+    assert!(!none.exists());
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -238,6 +238,12 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
     for cell in &mut climates {
         cell.sort_by(|a, b| b.global_mean_c.total_cmp(&a.global_mean_c));
     }
+    if h.branches.is_empty() && notes.is_empty() {
+        notes.push(format!(
+            "no branch traced: no seed reached an equilibrium in {}..{}",
+            spec.vary_from, spec.vary_to
+        ));
+    }
     Slice {
         index,
         across,

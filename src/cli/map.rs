@@ -209,7 +209,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
 
 fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
     let mut seen = std::collections::BTreeSet::new();
-    for s in slices {
+    for s in slices.iter().filter(|s| !s.points.is_empty()) {
         for r in &s.regime {
             seen.insert(*r);
         }
@@ -224,6 +224,13 @@ fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
     );
     for r in seen {
         s += &format!("  regime present: {}\n", regime_label(r));
+    }
+    let failed = slices.iter().filter(|s| s.points.is_empty()).count();
+    if failed > 0 {
+        s += &format!(
+            "  {failed} of {} slices failed (no branch traced): their cells are missing values in map.nc (slice_failed = 1), see summary.json failed_slices\n",
+            slices.len()
+        );
     }
     let notes: usize = slices.iter().map(|s| s.notes.len()).sum();
     if notes > 0 {
@@ -258,6 +265,21 @@ fn render(
     out: &mut OutputSet,
 ) -> Result<(), CliError> {
     let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
+    // a slice with no branch traced failed: it is not "no stable climate"
+    let failed: Vec<&Slice> = slices.iter().filter(|s| s.points.is_empty()).collect();
+    if !slices.is_empty() && failed.len() == slices.len() {
+        let s = failed[0];
+        return Err(CliError::Failed(format!(
+            "every slice of the map failed (no branch traced); slice {} ({ak} = {}): {}; nothing written",
+            s.index,
+            s.across,
+            if s.notes.is_empty() {
+                "no seed converged".to_string()
+            } else {
+                s.notes.join("; ")
+            }
+        )));
+    }
     // map.csv
     let mut t = Table::new(&[
         ak,
@@ -324,9 +346,14 @@ fn render(
     let mut regime = vec![0i32; nx * ny];
     let mut count = vec![0i32; nx * ny];
     for (i, s) in slices.iter().enumerate() {
+        let bad = s.points.is_empty();
         for j in 0..ny {
-            regime[j * nx + i] = s.regime[j] as i32;
-            count[j * nx + i] = s.stable_count[j] as i32;
+            regime[j * nx + i] = if bad { FILL_I32 } else { s.regime[j] as i32 };
+            count[j * nx + i] = if bad {
+                FILL_I32
+            } else {
+                s.stable_count[j] as i32
+            };
         }
     }
     let nc = map_netcdf(
@@ -339,7 +366,17 @@ fn render(
     )?;
     out.add_netcdf(dir.join("map.nc"), nc)?;
     // figure
-    let mut masks: Vec<u32> = regime.iter().map(|r| *r as u32).collect();
+    // (failed slices are drawn as cells without a stable climate; the
+    // title says how many)
+    let drawn: Vec<u32> = regime
+        .iter()
+        .map(|r| if *r == FILL_I32 { 0 } else { *r as u32 })
+        .collect();
+    let mut masks: Vec<u32> = regime
+        .iter()
+        .filter(|r| **r != FILL_I32)
+        .map(|r| *r as u32)
+        .collect();
     masks.sort_unstable();
     masks.dedup();
     let names: Vec<String> = masks.iter().map(|m| regime_label(*m)).collect();
@@ -348,7 +385,7 @@ fn render(
         vary_key: vk.to_string(),
         across: xs.clone(),
         vary: ys.clone(),
-        regime: regime.iter().map(|r| *r as u32).collect(),
+        regime: drawn,
         boundaries: bounds
             .iter()
             .filter(|b| b.points.len() >= 2 && crate::analysis::sweep::is_transition(&b.transition))
@@ -359,7 +396,16 @@ fn render(
             })
             .collect(),
     };
-    let fig = plot::regime_figure(&format!("Stable climates: {name}"), &map)?;
+    let title = if failed.is_empty() {
+        format!("Stable climates: {name}")
+    } else {
+        format!(
+            "Stable climates: {name} ({} of {} slices failed, drawn empty)",
+            failed.len(),
+            slices.len()
+        )
+    };
+    let fig = plot::regime_figure(&title, &map)?;
     out.add(dir.join("map.svg"), fig.svg);
     out.add(dir.join("map.png"), fig.png);
     // summary
@@ -376,6 +422,10 @@ fn render(
         "regimes": names,
         "boundaries": bounds.iter().map(|b| serde_json::json!({"transition": b.transition, "method": b.method, "points": b.points.len()})).collect::<Vec<_>>(),
         "notes": notes,
+        "failed_slices": failed
+            .iter()
+            .map(|s| serde_json::json!({ "slice": s.index, ak: s.across, "reasons": s.notes }))
+            .collect::<Vec<_>>(),
     });
     out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), scenario_toml);
@@ -490,6 +540,7 @@ fn map_netcdf(
     );
     nc.var_attr_i32(v, "flag_masks", &bits);
     nc.var_attr_text(v, "flag_meanings", meanings);
+    nc.var_attr_i32(v, "_FillValue", &[FILL_I32]);
     let v = nc.add_var_i32("stable_climates", &cell2, count.to_vec())?;
     nc.var_attrs_text(
         v,
@@ -498,6 +549,21 @@ fn map_netcdf(
             ("units", "1"),
         ],
     );
+    nc.var_attr_i32(v, "_FillValue", &[FILL_I32]);
+    let flags: Vec<i32> = slices.iter().map(|s| s.points.is_empty() as i32).collect();
+    let v = nc.add_var_i32("slice_failed", &[adim.as_str()], flags)?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "whether the slice failed (no branch traced; its cells are missing values)",
+            ),
+            ("units", "1"),
+            ("flag_meanings", "computed failed"),
+        ],
+    );
+    nc.var_attr_i32(v, "flag_values", &[0, 1]);
     let v = nc.add_var_i32("state", &cell3, state)?;
     nc.var_attrs_text(
         v,
