@@ -426,3 +426,71 @@ fn failed_slices_are_reported_not_mapped_as_empty() {
     assert!(!none.exists());
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// `merge` checks every field of a shard (README, merge): a hand-edited
+/// shard is refused with the field named, exit 2 (common practice, no
+/// source).
+#[test]
+fn merge_rejects_hand_edited_shards() {
+    let dir = temp_dir("edited-shards");
+    let shards = dir.join("shards");
+    for k in 0..2 {
+        let (code, _, err) = icefold(&[
+            "map",
+            "--across",
+            "orbit.obliquity=0:90:4",
+            "--cells",
+            "20",
+            "--shard",
+            &format!("{k}/2"),
+            "--quiet",
+            "--out",
+            shards.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{err}");
+    }
+    let merged = dir.join("map");
+    let (code, _, err) = icefold(&[
+        "merge",
+        shards.to_str().unwrap(),
+        "--out",
+        merged.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let file = shards.join("shard-1-of-2.json");
+    let original: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&file).unwrap()).unwrap();
+    type Edit = fn(&mut serde_json::Value);
+    let edits: [(&str, Edit); 7] = [
+        ("slices[0].regime[3]", |v| {
+            v["slices"][0]["regime"][3] = 64.into()
+        }),
+        ("slices[0].across", |v| {
+            v["slices"][0]["across"] = 31.0.into()
+        }),
+        ("slices[0].index", |v| v["slices"][0]["index"] = 2.into()),
+        ("scenario", |v| v["scenario"]["orbit.flux"] = 1000.0.into()),
+        ("spec.cells", |v| v["spec"]["cells"] = 1.into()),
+        ("spec.across", |v| v["spec"]["count"] = 10_000_000.into()),
+        ("slices[0].points[0]", |v| {
+            v["slices"][0]["points"][0]["global_mean_c"] = (-300.0).into()
+        }),
+    ];
+    for (field, edit) in edits {
+        let mut v = original.clone();
+        edit(&mut v);
+        std::fs::write(&file, serde_json::to_string(&v).unwrap()).unwrap();
+        let (code, _, err) = icefold(&[
+            "merge",
+            shards.to_str().unwrap(),
+            "--out",
+            merged.to_str().unwrap(),
+            "--quiet",
+        ]);
+        assert_eq!(code, 2, "{field}: {err}");
+        assert!(err.contains(&format!("field `{field}`")), "{field}: {err}");
+        assert_eq!(err.trim().lines().count(), 1, "{err}");
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}

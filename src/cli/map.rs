@@ -32,6 +32,191 @@ fn usage(msg: String) -> CliError {
     CliError::Usage(msg)
 }
 
+/// Checks every field of a shard read from `f` against what `map` could
+/// have written: the scenario text equals the scenario it claims, the map
+/// command passes the same checks as `map`'s options, the shard number
+/// fits, and every slice lies on the declared grid with known states,
+/// finite values in their ranges and regime masks that agree with the
+/// climates. A hand-edited shard fails with the field named (exit 2).
+fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, CliError> {
+    use crate::analysis::sweep::{STATES, state_bit};
+    let bad = |field: String, why: String| usage(format!("{}: field `{field}` {why}", f.display()));
+    let sc =
+        crate::io::scenario::Scenario::parse(&shard.scenario_toml, "shard", &[]).map_err(|e| {
+            bad(
+                "scenario_toml".into(),
+                format!("is not a valid scenario ({e})"),
+            )
+        })?;
+    if sc.to_json() != shard.scenario {
+        return Err(bad(
+            "scenario".into(),
+            "does not match the scenario text of the shard (scenario_toml)".into(),
+        ));
+    }
+    let model = sc.model();
+    let sp = &shard.spec;
+    let across_text = format!(
+        "{}={}:{}:{}",
+        sp.across, sp.across_from, sp.across_to, sp.count
+    );
+    let (ap, a_from, a_to, count) = parse_across(&across_text, &model).map_err(|e| {
+        bad(
+            "spec.across".into(),
+            format!("is not a valid --across ({e})"),
+        )
+    })?;
+    if (a_from, a_to, count) != (sp.across_from, sp.across_to, sp.count) {
+        return Err(bad(
+            "spec.across".into(),
+            format!("= `{across_text}` does not read back"),
+        ));
+    }
+    let vp = Param::from_key(&sp.vary).ok_or_else(|| {
+        bad(
+            "spec.vary".into(),
+            format!("= `{}` is not a key --vary takes", sp.vary),
+        )
+    })?;
+    if vp == ap {
+        return Err(bad("spec.vary".into(), "equals spec.across".into()));
+    }
+    let (lo, hi) = vp.range();
+    if !(sp.vary_from.is_finite()
+        && sp.vary_to.is_finite()
+        && sp.vary_from < sp.vary_to
+        && sp.vary_from >= lo
+        && sp.vary_to <= hi)
+    {
+        return Err(bad(
+            "spec.vary_from/vary_to".into(),
+            format!(
+                "= {}..{} is not an increasing range within {lo}..{hi}",
+                sp.vary_from, sp.vary_to
+            ),
+        ));
+    }
+    if !(2..=100_000).contains(&sp.cells) {
+        return Err(bad(
+            "spec.cells".into(),
+            format!("= {} is out of range: allowed 2 to 100000", sp.cells),
+        ));
+    }
+    let (k, n) = shard.shard;
+    if n == 0 || k >= n {
+        return Err(bad(
+            "shard".into(),
+            format!("= {k}/{n}: expected K/N with 0 <= K < N"),
+        ));
+    }
+    let all_bits: u32 = STATES.iter().map(|s| state_bit(*s)).fold(0, |a, b| a | b);
+    let known = |label: &str| STATES.iter().any(|s| s.label() == label);
+    let slack = 1e-9 * (sp.vary_to - sp.vary_from);
+    let in_range = |v: f64| v.is_finite() && v >= sp.vary_from - slack && v <= sp.vary_to + slack;
+    for (si, s) in shard.slices.iter().enumerate() {
+        let at = |field: &str| format!("slices[{si}].{field}");
+        if s.index >= sp.count || s.index % n != k {
+            return Err(bad(
+                at("index"),
+                format!(
+                    "= {} is not a slice of shard {k}/{n} of {} slices",
+                    s.index, sp.count
+                ),
+            ));
+        }
+        if s.across.to_bits() != sp.across_value(s.index).to_bits() {
+            return Err(bad(
+                at("across"),
+                format!(
+                    "= {} is not the grid value {} of slice {}",
+                    s.across,
+                    sp.across_value(s.index),
+                    s.index
+                ),
+            ));
+        }
+        if s.regime.len() != sp.cells
+            || s.stable_count.len() != sp.cells
+            || s.climates.len() != sp.cells
+        {
+            return Err(bad(
+                at("regime"),
+                format!("does not have the {} cells of the map", sp.cells),
+            ));
+        }
+        for c in 0..sp.cells {
+            let mask = s.regime[c];
+            if mask & !all_bits != 0 {
+                return Err(bad(
+                    at(&format!("regime[{c}]")),
+                    format!("= {mask} has bits of no climate state"),
+                ));
+            }
+            let cl = &s.climates[c];
+            if cl.len() != s.stable_count[c] as usize {
+                return Err(bad(
+                    at(&format!("stable_count[{c}]")),
+                    format!(
+                        "= {} but the cell lists {} climates",
+                        s.stable_count[c],
+                        cl.len()
+                    ),
+                ));
+            }
+            let mut seen = 0u32;
+            for (q, x) in cl.iter().enumerate() {
+                let ok = x.state.count_ones() == 1
+                    && x.state & all_bits != 0
+                    && x.global_mean_c.is_finite()
+                    && x.global_mean_c >= crate::model::climate::ABSOLUTE_ZERO_C
+                    && (-90.0..=90.0).contains(&x.ice_edge_north_deg)
+                    && (-90.0..=90.0).contains(&x.ice_edge_south_deg);
+                if !ok {
+                    return Err(bad(
+                        at(&format!("climates[{c}][{q}]")),
+                        "is not a climate (unknown state, non-physical temperature or an edge outside -90..90 deg)".into(),
+                    ));
+                }
+                seen |= x.state;
+            }
+            if seen != mask {
+                return Err(bad(
+                    at(&format!("regime[{c}]")),
+                    format!("= {mask} disagrees with the cell's climates ({seen})"),
+                ));
+            }
+        }
+        for (q, p) in s.points.iter().enumerate() {
+            let ok = known(&p.state)
+                && in_range(p.value)
+                && p.global_mean_c.is_finite()
+                && p.global_mean_c >= crate::model::climate::ABSOLUTE_ZERO_C
+                && (0.0..=1.0).contains(&p.ice_area_fraction)
+                && p.ice_edges_deg.iter().all(|e| (-90.0..=90.0).contains(e));
+            if !ok {
+                return Err(bad(
+                    at(&format!("points[{q}]")),
+                    "is not a traced climate (unknown state, a value outside the traced range, or a temperature, ice fraction or edge out of range)".into(),
+                ));
+            }
+        }
+        for (q, fo) in s.folds.iter().enumerate() {
+            let ok = known(&fo.from_state)
+                && (fo.to_state == "none" || known(&fo.to_state))
+                && in_range(fo.value)
+                && fo.global_mean_c.is_finite()
+                && (-90.0..=90.0).contains(&fo.ice_edge_deg);
+            if !ok {
+                return Err(bad(
+                    at(&format!("folds[{q}]")),
+                    "is not a fold of the map (unknown state, a value outside the traced range or an edge out of range)".into(),
+                ));
+            }
+        }
+    }
+    Ok(model)
+}
+
 /// Parses `KEY=FROM:TO:COUNT`.
 fn parse_across(
     text: &str,
@@ -663,6 +848,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
                 shard.format
             )));
         }
+        validate_shard(f, &shard)?;
         if let Some(r) = &first {
             if r.spec != shard.spec {
                 return Err(usage(format!(
