@@ -503,3 +503,21 @@ fn states_below_absolute_zero_are_not_reported() {
     }
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// The largest documented grid solves (README, large grids): 20,000 bands
+/// from the warm and cold starts, both equilibria found.
+#[test]
+fn twenty_thousand_bands_solve() {
+    let dir = temp_dir("bands20000");
+    let (code, out, err) = icefold(&[
+        "solve",
+        "--set",
+        "grid.bands=20000",
+        "--out",
+        dir.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("2 equilibria"), "{out}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -110,3 +110,29 @@ fn folds_converge_at_second_order_with_no_spurious_turning_points() {
         }
     }
 }
+
+/// Large grids (README, grids): the stiff transport terms put the rounding
+/// floor of F above the default tolerance from about 3,500 bands, and the
+/// stopping tests scale with it, so a grid of 5,000 bands traces the four
+/// folds of North's (1975) closed form, closer than at 90 bands
+/// (second-order convergence; observed errors up to 4.8e-9, asserted
+/// below 1e-8).
+#[test]
+fn four_folds_at_5000_bands() {
+    let e = errors(5000, "sine", true);
+    eprintln!("5000 bands: relative errors {e:?}");
+    for err in e {
+        assert!(err < 1e-8, "{e:?}");
+    }
+}
+
+/// The largest documented grid, 20,000 bands (about 10 s; observed errors
+/// up to 3.0e-10, asserted below 1e-9).
+#[test]
+fn four_folds_at_20000_bands() {
+    let e = errors(20000, "sine", true);
+    eprintln!("20000 bands: relative errors {e:?}");
+    for err in e {
+        assert!(err < 1e-9, "{e:?}");
+    }
+}

@@ -23,6 +23,8 @@ pub struct AnnualProblem {
     /// `unstable_modes`.
     jac_u: Vec<f64>,
     jac_p: f64,
+    /// Rounding floor of max |F| at the last factored state.
+    floor: f64,
 }
 
 impl AnnualProblem {
@@ -40,6 +42,7 @@ impl AnnualProblem {
             ws,
             jac_u: vec![f64::NAN; n],
             jac_p: f64::NAN,
+            floor: 0.0,
         }
     }
 }
@@ -60,7 +63,11 @@ impl Problem for AnnualProblem {
         self.model.evaluate(u, f, Some(&mut self.jac));
         self.jac_u.copy_from_slice(u);
         self.jac_p = self.model.param(self.param);
+        self.floor = crate::numerics::newton::rounding_floor(&self.jac, u);
         self.jac.factor()
+    }
+    fn residual_floor(&self) -> f64 {
+        self.floor
     }
     fn solve(&self, b: &mut [f64]) {
         self.jac.solve(b);

@@ -176,7 +176,7 @@ impl Integrator {
         let mut tried = 0usize;
         let mut d_prev = target.map_or(0.0, |(tt, _)| max_diff(t, tt));
         loop {
-            model.evaluate(t, &mut self.f, None);
+            model.evaluate(t, &mut self.f, Some(&mut self.jac));
             let res = max_abs(&self.f);
             if !res.is_finite() {
                 return Err(format!(
@@ -184,7 +184,12 @@ impl Integrator {
                     run.time
                 ));
             }
-            if res < opts.settle_tolerance {
+            // settled: below the tolerance, or below the rounding floor of
+            // F where that is larger (many bands)
+            let settle = opts
+                .settle_tolerance
+                .max(crate::numerics::newton::rounding_floor(&self.jac, t));
+            if res < settle {
                 return Ok(run);
             }
             if tried >= opts.max_steps || run.time >= opts.max_years {
