@@ -521,3 +521,23 @@ fn twenty_thousand_bands_solve() {
     assert!(out.contains("2 equilibria"), "{out}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// Messages that help (README, bad input): numbers at most 6 significant
+/// digits, suggestions only for near misses (common practice, no source).
+#[test]
+fn messages_are_short_and_suggest_only_near_misses() {
+    let (code, _, err) = icefold(&["check", "--set", "orbit.obliquity=180.123456789"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("= 180.123 is out of range"), "{err}");
+    let (_, _, err) = icefold(&["check", "--set", "orbit.flux=1e9"]);
+    assert!(err.contains("= 1e9 is out of range"), "{err}");
+    let (_, _, err) = icefold(&["check", "--set", "zzz.qqq=3"]);
+    assert!(!err.contains("did you mean"), "{err}");
+    let (_, _, err) = icefold(&["check", "--set", "orbit.diffusivity=3"]);
+    assert!(
+        err.contains("did you mean `transport.diffusivity`"),
+        "{err}"
+    );
+    let (_, _, err) = icefold(&["check", "--set", "radiation.aa=3"]);
+    assert!(err.contains("did you mean `radiation.a`"), "{err}");
+}

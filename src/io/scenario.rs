@@ -103,18 +103,19 @@ fn edit_distance(a: &str, b: &str) -> usize {
 
 fn suggest(key: &str) -> String {
     let last = key.rsplit('.').next().unwrap_or(key);
+    // a near miss only: at most one edit per four characters of the whole
+    // key, or of its last part (the right key in the wrong section)
     let best = SCHEMA
         .iter()
-        .map(|k| {
+        .filter_map(|k| {
             let kl = k.key.rsplit('.').next().unwrap_or(k.key);
-            (
-                edit_distance(key, k.key).min(edit_distance(last, kl) + 1),
-                k.key,
-            )
+            let (full, part) = (edit_distance(key, k.key), edit_distance(last, kl));
+            let near = full * 4 <= k.key.len().max(4) || part * 4 <= kl.len().max(4);
+            near.then_some((full.min(part + 1), k.key))
         })
         .min();
     match best {
-        Some((d, k)) if d <= 4 => format!(", did you mean `{k}`?"),
+        Some((_, k)) => format!(", did you mean `{k}`?"),
         _ => " (see `icefold check` for the documented keys)".to_string(),
     }
 }
@@ -133,12 +134,17 @@ fn value_text(v: &toml::Value) -> String {
     }
 }
 
-fn fmt_num(x: f64) -> String {
-    let s = format!("{x}");
-    if s.contains('e') || s.contains('.') || s.contains("inf") || s.contains("NaN") {
-        s
+/// A number for a message: at most 6 significant digits (exponent form
+/// outside 1e-4..1e6).
+pub fn fmt_num(x: f64) -> String {
+    if !x.is_finite() || x == 0.0 {
+        return format!("{x}");
+    }
+    let r: f64 = format!("{x:.5e}").parse().unwrap_or(x);
+    if (1e-4..1e6).contains(&r.abs()) {
+        format!("{r}")
     } else {
-        format!("{s}.0")
+        format!("{r:e}")
     }
 }
 
