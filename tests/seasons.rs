@@ -382,6 +382,19 @@ fn run_and_periodic_write_their_outputs() {
     assert_eq!(meta["bands"], 24);
     let d2 = temp_dir("run2");
     cmd_run(&args("run", &d2, &sets), 1, Some(state.to_str().unwrap())).unwrap();
+    // every header field of the state is checked: other steps per year, or
+    // a hand-edited year fraction, are refused (exit 2) naming the field
+    let d4 = temp_dir("run4");
+    let other = ["grid.bands=24", "seasons.steps_per_year=72"];
+    let e = cmd_run(&args("run", &d4, &other), 1, Some(state.to_str().unwrap())).unwrap_err();
+    assert_eq!(e.exit_code(), 2);
+    assert!(e.to_string().contains("steps_per_year"), "{e}");
+    let mut edited = meta.clone();
+    edited["year_fraction"] = 0.5.into();
+    std::fs::write(d.join("state.json"), edited.to_string()).unwrap();
+    let e = cmd_run(&args("run", &d4, &sets), 1, Some(state.to_str().unwrap())).unwrap_err();
+    assert!(e.to_string().contains("year_fraction"), "{e}");
+    std::fs::write(d.join("state.json"), meta.to_string()).unwrap();
     let d3 = temp_dir("periodic");
     let text = cmd_periodic(&args("periodic", &d3, &sets)).unwrap();
     assert!(text.contains("periodic climates"), "{text}");

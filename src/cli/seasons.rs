@@ -60,9 +60,15 @@ fn side_file(path: &Path) -> std::path::PathBuf {
 
 /// Reads a state written by `run` (the table and its side file) and checks
 /// that it belongs to this scenario (same name) and grid (bands, spacing,
-/// symmetry and the band latitudes to 1e-6 deg). Any mismatch or malformed
+/// symmetry and the band latitudes to 1e-6 deg), the same steps per year
+/// and a state at the start of a year. Any mismatch or malformed
 /// content is a usage error (exit 2).
-pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, CliError> {
+pub fn read_state(
+    path: &Path,
+    sc: &Scenario,
+    model: &Model,
+    steps_per_year: usize,
+) -> Result<Start, CliError> {
     let bad = |why: String| CliError::Usage(format!("--from {}: {why}", path.display()));
     let meta_path = side_file(path);
     let meta_text = crate::io::input::read_text(&meta_path, crate::io::input::TABLE_MAX_BYTES).map_err(|e| {
@@ -85,6 +91,8 @@ pub fn read_state(path: &Path, sc: &Scenario, model: &Model) -> Result<Start, Cl
         ("bands", g.len().into()),
         ("spacing", g.spacing.to_string().into()),
         ("symmetric", g.symmetric.into()),
+        ("steps_per_year", steps_per_year.into()),
+        ("year_fraction", 0.0.into()),
     ];
     for (k, want) in &expect {
         match meta.get(*k) {
@@ -180,7 +188,7 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     let start = match from.unwrap_or("warm") {
         "warm" => standard_starts(n, sc.num("solver.warm_start"), 0.0).remove(0),
         "cold" => standard_starts(n, 0.0, sc.num("solver.cold_start")).remove(1),
-        file => read_state(Path::new(file), &sc, sm.model())?,
+        file => read_state(Path::new(file), &sc, sm.model(), steps)?,
     };
     let mut t = start.temperature.clone();
     let mut table = Table::new(&[
@@ -193,6 +201,8 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     ]);
     let mut failure = None;
     let mut last_change = f64::NAN;
+    // a long run shows its progress (Ctrl-C stops it; nothing is written)
+    let bar = super::progress::Progress::bar("run", years as u64, "years", args.quiet);
     for y in 0..years {
         let before = t.clone();
         let mut rows = Vec::with_capacity(steps);
@@ -231,7 +241,9 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
             .iter()
             .zip(&before)
             .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+        bar.inc();
     }
+    bar.finish();
     if let Some(why) = failure {
         return Err(CliError::Failed(format!(
             "the time integration failed {why}; nothing written"
