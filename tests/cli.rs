@@ -541,3 +541,26 @@ fn messages_are_short_and_suggest_only_near_misses() {
     let (_, _, err) = icefold(&["check", "--set", "radiation.aa=3"]);
     assert!(err.contains("did you mean `radiation.a`"), "{err}");
 }
+
+/// `check` refuses or names what `run` would refuse (README, documented
+/// ranges): a one-hemisphere grid is valid for the annual-mean commands,
+/// and `check` says that `run` and `periodic` would refuse it.
+#[test]
+fn check_names_what_the_seasonal_commands_refuse() {
+    let (code, out, err) = icefold(&["check", "--set", "grid.symmetric=true"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(
+        out.lines().next().unwrap().contains("would refuse it"),
+        "{out}"
+    );
+    let (code, _, err) = icefold(&[
+        "run",
+        "--years",
+        "1",
+        "--set",
+        "grid.symmetric=true",
+        "--out",
+        temp_dir("symrun").to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{err}");
+}

@@ -20,7 +20,21 @@ pub fn run(args: &Args) -> Result<String, CliError> {
     match args.command.as_str() {
         "check" => {
             let sc = context::load(args)?;
-            Ok(format!("# {} (valid)\n{}", sc.source, sc.to_toml()))
+            // check refuses what the commands would refuse: the seasonal
+            // model's own conditions apply when seasons are enabled, and are
+            // noted when they are not (run and periodic would refuse)
+            let seasonal = sc.seasonal_model().err();
+            match seasonal {
+                Some(e) if sc.flag("seasons.enabled") => Err(CliError::Usage(format!(
+                    "seasons.enabled = true, but the seasonal model refuses this scenario: {e}"
+                ))),
+                Some(e) => Ok(format!(
+                    "# {} (valid; `run` and `periodic` would refuse it: {e})\n{}",
+                    sc.source,
+                    sc.to_toml()
+                )),
+                None => Ok(format!("# {} (valid)\n{}", sc.source, sc.to_toml())),
+            }
         }
         "solve" => solve::cmd_solve(args),
         "sun" => sun::cmd_sun(args),

@@ -228,7 +228,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: num(-1.0, 1.0),
         default: "0.202",
         unit: "",
-        doc: "P2 coefficient of the open-surface albedo (North et al. 1981).",
+        doc: "P2 coefficient of the open-surface albedo (North et al. 1981); jointly with albedo.open, open + open_p2 P2(x) must stay in [0, 1] for every latitude.",
     },
     KeySpec {
         key: "albedo.ice",
