@@ -1,6 +1,8 @@
 #!/usr/bin/env bash
 # Every test: the Rust suites, then the Python checks of the files the
-# commands write (xarray opens every NetCDF file without a warning).
+# commands write (xarray opens every NetCDF file without a warning), then a
+# short fuzzing pass of the input readers (tests/fuzz.sh; nightly + cargo-fuzz,
+# installed from the registries if missing).
 # Slow suites: cargo test --release -- --ignored (not run here).
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -8,3 +10,5 @@ python3 -m pip install --quiet --disable-pip-version-check -r python/requirement
 cargo build --release
 cargo test --release
 python3 -m pytest -q python/tests
+# a short coverage-guided fuzzing pass of the input readers (15 s a target)
+bash tests/fuzz.sh 15

@@ -32,6 +32,29 @@ fn usage(msg: String) -> CliError {
     CliError::Usage(msg)
 }
 
+/// Reads, parses and checks the shard file `f` ([`validate_shard`]).
+fn read_shard(f: &Path) -> Result<ShardFile, CliError> {
+    let text = crate::io::input::read_text(f, crate::io::input::SHARD_MAX_BYTES)
+        .map_err(|e| usage(format!("cannot read {}: {e}", f.display())))?;
+    let shard: ShardFile = serde_json::from_str(&text)
+        .map_err(|e| usage(format!("{}: not a map shard ({e})", f.display())))?;
+    if shard.format != SHARD_FORMAT {
+        return Err(usage(format!(
+            "{}: unknown shard format `{}`",
+            f.display(),
+            shard.format
+        )));
+    }
+    validate_shard(f, &shard)?;
+    Ok(shard)
+}
+
+/// Whether `f` is a shard `merge` accepts: the error `merge` would give
+/// otherwise (for the fuzzing targets and tests).
+pub fn check_shard_file(f: &Path) -> Result<(), CliError> {
+    read_shard(f).map(|_| ())
+}
+
 /// Checks every field of a shard read from `f` against what `map` could
 /// have written: the scenario text equals the scenario it claims, the map
 /// command passes the same checks as `map`'s options, the shard number
@@ -837,18 +860,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
     let mut first: Option<ShardFile> = None;
     let mut slices: std::collections::BTreeMap<usize, Slice> = std::collections::BTreeMap::new();
     for f in &files {
-        let text = crate::io::input::read_text(f, crate::io::input::SHARD_MAX_BYTES)
-            .map_err(|e| usage(format!("cannot read {}: {e}", f.display())))?;
-        let shard: ShardFile = serde_json::from_str(&text)
-            .map_err(|e| usage(format!("{}: not a map shard ({e})", f.display())))?;
-        if shard.format != SHARD_FORMAT {
-            return Err(usage(format!(
-                "{}: unknown shard format `{}`",
-                f.display(),
-                shard.format
-            )));
-        }
-        validate_shard(f, &shard)?;
+        let shard = read_shard(f)?;
         if let Some(r) = &first {
             if r.spec != shard.spec {
                 return Err(usage(format!(
