@@ -135,6 +135,52 @@ fn kill_9_leaves_the_old_set_or_the_new_one_never_a_mix() {
     let _ = fs::remove_dir_all(&parent);
 }
 
+/// The same for a long `run` (a time integration; 40 model years, about
+/// a second): killed at spread moments, the old set or the new one.
+#[test]
+fn kill_9_during_a_long_run_never_mixes_sets() {
+    let parent = temp_dir("kill9run");
+    fs::create_dir_all(&parent).unwrap();
+    let dir = parent.join("r");
+    let d = dir.to_str().unwrap();
+    let new_args = ["run", "--years", "40", "--out", d, "--quiet"];
+    let old_args = ["run", "--years", "2", "--out", d, "--quiet"];
+    let (c, _, e) = icefold(&new_args);
+    assert_eq!(c, 0, "{e}");
+    let new = snapshot(&dir);
+    let (c, _, e) = icefold(&old_args);
+    assert_eq!(c, 0, "{e}");
+    let old = snapshot(&dir);
+    assert_ne!(old, new);
+    let mut before = 0;
+    for k in 0..10 {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_icefold"))
+            .args(new_args)
+            .stdout(Stdio::null())
+            .stderr(Stdio::null())
+            .spawn()
+            .unwrap();
+        std::thread::sleep(Duration::from_millis(30 + 100 * k));
+        let _ = child.kill();
+        let _ = child.wait();
+        let now = snapshot(&dir);
+        if now == old {
+            before += 1;
+        } else if now == new {
+            let (c, _, e) = icefold(&old_args);
+            assert_eq!(c, 0, "{e}");
+        } else {
+            panic!("trial {k}: a mix of old and new files");
+        }
+    }
+    assert!(before > 0, "no trial was killed before publishing");
+    let (c, _, e) = icefold(&new_args);
+    assert_eq!(c, 0, "{e}");
+    assert_eq!(snapshot(&dir), new);
+    assert_eq!(leftovers(&parent, "r"), Vec::<String>::new());
+    let _ = fs::remove_dir_all(&parent);
+}
+
 #[test]
 fn two_runs_into_one_directory_publish_one_after_the_other() {
     let parent = temp_dir("concurrent");
@@ -244,6 +290,13 @@ fn a_directory_with_foreign_files_or_a_bad_out_is_refused_and_kept() {
     assert_eq!(c, 0, "{e}");
     let (c, _, e) = icefold(&["solve", "--out", d, "--quiet"]);
     assert_eq!(c, 0, "{e}");
+    // with an earlier set's manifest there, a foreign file is refused
+    // before computing: a 2000-year run returns at once, exit 2
+    fs::write(dir.join("notes.txt"), "mine\n").unwrap();
+    let (c, _, e) = icefold(&["run", "--years", "2000", "--out", d, "--quiet"]);
+    assert_eq!(c, 2, "{e}");
+    assert!(e.contains("notes.txt"), "{e}");
+    assert_eq!(fs::read_to_string(dir.join("notes.txt")).unwrap(), "mine\n");
     // a file, not a directory
     let f = parent.join("file");
     fs::write(&f, "x").unwrap();

@@ -17,6 +17,17 @@ pub use context::{Args, CliError, VERSION};
 
 /// Runs one command; returns what to print on stdout.
 pub fn run(args: &Args) -> Result<String, CliError> {
+    // refuse an unusable --out before computing (the full check is made
+    // again when the outputs are published)
+    let writes = ["solve", "sun", "trace", "map", "merge", "run", "periodic"];
+    if writes.contains(&args.command.as_str()) {
+        let dir = match (&args.out, args.command.as_str()) {
+            (Some(d), _) => d.clone(),
+            (None, "merge") => std::path::PathBuf::from("out").join("map"),
+            (None, _) => context::out_dir(args),
+        };
+        crate::io::publish::precheck(&dir)?;
+    }
     match args.command.as_str() {
         "check" => {
             let sc = context::load(args)?;

@@ -255,6 +255,48 @@ fn check_existing(dir: &Path, names: &[OsString]) -> Result<bool, ExportError> {
     Ok(true)
 }
 
+/// The checks of an existing `--out` that can be made before computing
+/// (so that a long run is not refused only at the end): it must be a
+/// directory, and if an earlier set's manifest is there, hold nothing that
+/// manifest does not list. Map shard directories (no manifest) pass.
+pub fn precheck(dir: &Path) -> Result<(), ExportError> {
+    split(dir)?;
+    let meta = match fs::symlink_metadata(dir) {
+        Ok(m) => m,
+        Err(_) => return Ok(()),
+    };
+    if meta.file_type().is_symlink() {
+        return match fs::metadata(dir) {
+            Ok(m) if m.is_dir() => Ok(()),
+            _ => Err(refused(format!(
+                "--out `{}` is a symbolic link to something that is not a directory",
+                dir.display()
+            ))),
+        };
+    }
+    if !meta.is_dir() {
+        return Err(refused(format!(
+            "--out `{}` exists and is not a directory",
+            dir.display()
+        )));
+    }
+    if !dir.join(MANIFEST).exists() {
+        return Ok(());
+    }
+    let previous = previous_names(dir);
+    for e in fs::read_dir(dir).map_err(|e| io_err(dir, e))?.flatten() {
+        let n = e.file_name();
+        if n != MANIFEST && !previous.contains(&n) {
+            return Err(refused(format!(
+                "--out `{}` holds `{}`, which icefold did not write there; give a new or empty directory, or one an earlier run of icefold wrote",
+                dir.display(),
+                n.to_string_lossy()
+            )));
+        }
+    }
+    Ok(())
+}
+
 /// A file of the set: its path relative to `--out` and a writer that
 /// fills the newly created file.
 pub(crate) type Writer<'a> = Box<dyn FnOnce(&fs::File) -> Result<(), ExportError> + 'a>;
