@@ -450,13 +450,16 @@ fn merge_rejects_hand_edited_shards() {
         assert_eq!(code, 0, "{err}");
     }
     let merged = dir.join("map");
-    let (code, _, err) = icefold(&[
-        "merge",
-        shards.to_str().unwrap(),
-        "--out",
-        merged.to_str().unwrap(),
-        "--quiet",
-    ]);
+    let merge = || {
+        icefold(&[
+            "merge",
+            shards.to_str().unwrap(),
+            "--out",
+            merged.to_str().unwrap(),
+            "--quiet",
+        ])
+    };
+    let (code, _, err) = merge();
     assert_eq!(code, 0, "{err}");
     let file = shards.join("shard-1-of-2.json");
     let original: serde_json::Value =
@@ -481,13 +484,7 @@ fn merge_rejects_hand_edited_shards() {
         let mut v = original.clone();
         edit(&mut v);
         std::fs::write(&file, serde_json::to_string(&v).unwrap()).unwrap();
-        let (code, _, err) = icefold(&[
-            "merge",
-            shards.to_str().unwrap(),
-            "--out",
-            merged.to_str().unwrap(),
-            "--quiet",
-        ]);
+        let (code, _, err) = merge();
         assert_eq!(code, 2, "{field}: {err}");
         assert!(err.contains(&format!("field `{field}`")), "{field}: {err}");
         assert_eq!(err.trim().lines().count(), 1, "{err}");

@@ -43,6 +43,58 @@ fn leftovers(parent: &Path, name: &str) -> Vec<String> {
         .collect()
 }
 
+/// Starts icefold with `args` (stdout discarded, stderr kept).
+fn spawn(args: &[&str]) -> std::process::Child {
+    Command::new(env!("CARGO_BIN_EXE_icefold"))
+        .args(args)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap()
+}
+
+/// Waits for every run and asserts each succeeded.
+fn all_succeed(runs: Vec<std::process::Child>) {
+    for r in runs {
+        let out = r.wait_with_output().unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(0), "{err}");
+    }
+}
+
+/// Kills `new_args` at `trials` moments (`delay(k)` ms after the start)
+/// over the complete set `old` in `dir`: each time `dir` must hold the old
+/// set or the new one `new` whole (after a new one, `old_args` restores the
+/// old). Returns how many trials left the old set.
+fn kill_trials(
+    dir: &Path,
+    (new_args, new): (&[&str], &BTreeMap<PathBuf, Vec<u8>>),
+    (old_args, old): (&[&str], &BTreeMap<PathBuf, Vec<u8>>),
+    trials: u64,
+    delay: impl Fn(u64) -> u64,
+) -> usize {
+    let mut before = 0;
+    for k in 0..trials {
+        let mut child = spawn(new_args);
+        std::thread::sleep(Duration::from_millis(delay(k)));
+        let _ = child.kill();
+        let _ = child.wait();
+        let now = snapshot(dir);
+        if now == *old {
+            before += 1;
+        } else if now == *new {
+            let (c, _, e) = icefold(old_args);
+            assert_eq!(c, 0, "{e}");
+        } else {
+            panic!(
+                "trial {k}: a mix of old and new files: {:?}",
+                now.keys().collect::<Vec<_>>()
+            );
+        }
+    }
+    before
+}
+
 fn dead_pid() -> u32 {
     let mut c = Command::new("true").spawn().unwrap();
     let pid = c.id();
@@ -100,33 +152,10 @@ fn kill_9_leaves_the_old_set_or_the_new_one_never_a_mix() {
     assert_ne!(old, new);
     // kill the new run at moments spread over its run time (about 0.2 to
     // 0.5 s here); some before publishing, some possibly after
-    let mut saw = (0, 0);
-    for k in 0..16 {
-        let mut child = Command::new(env!("CARGO_BIN_EXE_icefold"))
-            .args(new_args)
-            .stdout(Stdio::null())
-            .stderr(Stdio::null())
-            .spawn()
-            .unwrap();
-        std::thread::sleep(Duration::from_millis(20 + 40 * k));
-        let _ = child.kill();
-        let _ = child.wait();
-        let now = snapshot(&dir);
-        if now == old {
-            saw.0 += 1;
-        } else if now == new {
-            saw.1 += 1;
-            // back to the old set for the next trial
-            let (c, _, e) = icefold(&old_args);
-            assert_eq!(c, 0, "{e}");
-        } else {
-            panic!(
-                "trial {k}: a mix of old and new files: {:?}",
-                now.keys().collect::<Vec<_>>()
-            );
-        }
-    }
-    assert!(saw.0 > 0, "no trial was killed before publishing: {saw:?}");
+    let before = kill_trials(&dir, (&new_args, &new), (&old_args, &old), 16, |k| {
+        20 + 40 * k
+    });
+    assert!(before > 0, "no trial was killed before publishing");
     // the next complete run publishes and cleans what the killed ones left
     let (c, _, e) = icefold(&new_args);
     assert_eq!(c, 0, "{e}");
@@ -152,27 +181,9 @@ fn kill_9_during_a_long_run_never_mixes_sets() {
     assert_eq!(c, 0, "{e}");
     let old = snapshot(&dir);
     assert_ne!(old, new);
-    let mut before = 0;
-    for k in 0..10 {
-        let mut child = Command::new(env!("CARGO_BIN_EXE_icefold"))
-            .args(new_args)
-            .stdout(Stdio::null())
-            .stderr(Stdio::null())
-            .spawn()
-            .unwrap();
-        std::thread::sleep(Duration::from_millis(30 + 100 * k));
-        let _ = child.kill();
-        let _ = child.wait();
-        let now = snapshot(&dir);
-        if now == old {
-            before += 1;
-        } else if now == new {
-            let (c, _, e) = icefold(&old_args);
-            assert_eq!(c, 0, "{e}");
-        } else {
-            panic!("trial {k}: a mix of old and new files");
-        }
-    }
+    let before = kill_trials(&dir, (&new_args, &new), (&old_args, &old), 10, |k| {
+        30 + 100 * k
+    });
     assert!(before > 0, "no trial was killed before publishing");
     let (c, _, e) = icefold(&new_args);
     assert_eq!(c, 0, "{e}");
@@ -186,25 +197,11 @@ fn two_runs_into_one_directory_publish_one_after_the_other() {
     let parent = temp_dir("concurrent");
     let dir = parent.join("s");
     let d = dir.to_str().unwrap().to_string();
-    let runs: Vec<_> = (0..4)
-        .map(|_| {
-            Command::new(env!("CARGO_BIN_EXE_icefold"))
-                .args(["solve", "--out", &d, "--quiet"])
-                .stdout(Stdio::null())
-                .stderr(Stdio::piped())
-                .spawn()
-                .unwrap()
-        })
-        .collect();
-    for r in runs {
-        let out = r.wait_with_output().unwrap();
-        assert_eq!(
-            out.status.code(),
-            Some(0),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-    }
+    all_succeed(
+        (0..4)
+            .map(|_| spawn(&["solve", "--out", &d, "--quiet"]))
+            .collect(),
+    );
     let (c, _, e) = icefold(&["solve", "--out", &d, "--quiet"]);
     assert_eq!(c, 0, "{e}");
     let one = snapshot(&dir);
@@ -317,36 +314,25 @@ fn concurrent_shards_share_one_directory() {
     let dir = parent.join("shards");
     let d = dir.to_str().unwrap().to_string();
     let n = 4;
-    let runs: Vec<_> = (0..n)
-        .map(|k| {
-            Command::new(env!("CARGO_BIN_EXE_icefold"))
-                .args([
+    all_succeed(
+        (0..n)
+            .map(|k| {
+                let shard = format!("{k}/{n}");
+                spawn(&[
                     "map",
                     "--across",
                     "orbit.obliquity=0:90:8",
                     "--threads",
                     "1",
                     "--shard",
-                    &format!("{k}/{n}"),
+                    &shard,
                     "--out",
                     &d,
                     "--quiet",
                 ])
-                .stdout(Stdio::null())
-                .stderr(Stdio::piped())
-                .spawn()
-                .unwrap()
-        })
-        .collect();
-    for r in runs {
-        let out = r.wait_with_output().unwrap();
-        assert_eq!(
-            out.status.code(),
-            Some(0),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-    }
+            })
+            .collect(),
+    );
     let names: Vec<String> = snapshot(&dir)
         .keys()
         .map(|p| p.to_string_lossy().into_owned())
