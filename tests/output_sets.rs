@@ -62,29 +62,43 @@ fn all_succeed(runs: Vec<std::process::Child>) {
     }
 }
 
-/// Kills `new_args` at `trials` moments (`delay(k)` ms after the start)
-/// over the complete set `old` in `dir`: each time `dir` must hold the old
-/// set or the new one `new` whole (after a new one, `old_args` restores the
-/// old). Returns how many trials left the old set.
+/// Runs `new_args` then `old_args` to completion into `parent/name` (the
+/// complete new and old sets), then kills `new_args` at `trials` moments
+/// (`delay(k)` ms after its start): each time the directory must hold the
+/// old set or the new one whole (after a new one, `old_args` restores the
+/// old). At least one trial must be killed before publishing; a final
+/// complete run publishes the new set and leaves nothing behind.
 fn kill_trials(
-    dir: &Path,
-    (new_args, new): (&[&str], &BTreeMap<PathBuf, Vec<u8>>),
-    (old_args, old): (&[&str], &BTreeMap<PathBuf, Vec<u8>>),
+    parent: &Path,
+    name: &str,
+    args: impl Fn(&str) -> (Vec<String>, Vec<String>),
     trials: u64,
     delay: impl Fn(u64) -> u64,
-) -> usize {
+) {
+    fs::create_dir_all(parent).unwrap();
+    let dir = parent.join(name);
+    let (new_args, old_args) = args(dir.to_str().unwrap());
+    let new_args: Vec<&str> = new_args.iter().map(String::as_str).collect();
+    let old_args: Vec<&str> = old_args.iter().map(String::as_str).collect();
+    let complete = |a: &[&str]| {
+        let (c, _, e) = icefold(a);
+        assert_eq!(c, 0, "{e}");
+        snapshot(&dir)
+    };
+    let new = complete(&new_args);
+    let old = complete(&old_args);
+    assert_ne!(old, new);
     let mut before = 0;
     for k in 0..trials {
-        let mut child = spawn(new_args);
+        let mut child = spawn(&new_args);
         std::thread::sleep(Duration::from_millis(delay(k)));
         let _ = child.kill();
         let _ = child.wait();
-        let now = snapshot(dir);
-        if now == *old {
+        let now = snapshot(&dir);
+        if now == old {
             before += 1;
-        } else if now == *new {
-            let (c, _, e) = icefold(old_args);
-            assert_eq!(c, 0, "{e}");
+        } else if now == new {
+            complete(&old_args);
         } else {
             panic!(
                 "trial {k}: a mix of old and new files: {:?}",
@@ -92,7 +106,10 @@ fn kill_trials(
             );
         }
     }
-    before
+    assert!(before > 0, "no trial was killed before publishing");
+    assert_eq!(complete(&new_args), new);
+    assert_eq!(leftovers(parent, name), Vec::<String>::new());
+    let _ = fs::remove_dir_all(parent);
 }
 
 fn dead_pid() -> u32 {
@@ -118,78 +135,49 @@ fn host() -> String {
 
 #[test]
 fn kill_9_leaves_the_old_set_or_the_new_one_never_a_mix() {
-    let parent = temp_dir("kill9");
-    fs::create_dir_all(&parent).unwrap();
-    let dir = parent.join("m");
-    let d = dir.to_str().unwrap();
-    let new_args = [
-        "map",
-        "--across",
-        "orbit.obliquity=0:90:6",
-        "--threads",
-        "1",
-        "--out",
-        d,
-        "--quiet",
-    ];
-    let old_args = [
-        "map",
-        "--across",
-        "orbit.obliquity=0:90:2",
-        "--threads",
-        "1",
-        "--out",
-        d,
-        "--quiet",
-    ];
-    // the complete new set and the complete old set
-    let (c, _, e) = icefold(&new_args);
-    assert_eq!(c, 0, "{e}");
-    let new = snapshot(&dir);
-    let (c, _, e) = icefold(&old_args);
-    assert_eq!(c, 0, "{e}");
-    let old = snapshot(&dir);
-    assert_ne!(old, new);
-    // kill the new run at moments spread over its run time (about 0.2 to
-    // 0.5 s here); some before publishing, some possibly after
-    let before = kill_trials(&dir, (&new_args, &new), (&old_args, &old), 16, |k| {
-        20 + 40 * k
-    });
-    assert!(before > 0, "no trial was killed before publishing");
-    // the next complete run publishes and cleans what the killed ones left
-    let (c, _, e) = icefold(&new_args);
-    assert_eq!(c, 0, "{e}");
-    assert_eq!(snapshot(&dir), new);
-    assert_eq!(leftovers(&parent, "m"), Vec::<String>::new());
-    let _ = fs::remove_dir_all(&parent);
+    // a map of 6 slices (about 0.2 to 0.5 s) over one of 2; killed at 16
+    // moments spread over its run time, some before publishing, some
+    // possibly after
+    let map = |count: &str, d: &str| -> Vec<String> {
+        let across = format!("orbit.obliquity=0:90:{count}");
+        [
+            "map",
+            "--across",
+            &across,
+            "--threads",
+            "1",
+            "--out",
+            d,
+            "--quiet",
+        ]
+        .map(String::from)
+        .to_vec()
+    };
+    kill_trials(
+        &temp_dir("kill9"),
+        "m",
+        |d| (map("6", d), map("2", d)),
+        16,
+        |k| 20 + 40 * k,
+    );
 }
 
 /// The same for a long `run` (a time integration; 40 model years, about
-/// a second): killed at spread moments, the old set or the new one.
+/// a second) over a run of 2 years.
 #[test]
 fn kill_9_during_a_long_run_never_mixes_sets() {
-    let parent = temp_dir("kill9run");
-    fs::create_dir_all(&parent).unwrap();
-    let dir = parent.join("r");
-    let d = dir.to_str().unwrap();
-    let new_args = ["run", "--years", "40", "--out", d, "--quiet"];
-    let old_args = ["run", "--years", "2", "--out", d, "--quiet"];
-    let (c, _, e) = icefold(&new_args);
-    assert_eq!(c, 0, "{e}");
-    let new = snapshot(&dir);
-    let (c, _, e) = icefold(&old_args);
-    assert_eq!(c, 0, "{e}");
-    let old = snapshot(&dir);
-    assert_ne!(old, new);
-    let before = kill_trials(&dir, (&new_args, &new), (&old_args, &old), 10, |k| {
-        30 + 100 * k
-    });
-    assert!(before > 0, "no trial was killed before publishing");
-    let (c, _, e) = icefold(&new_args);
-    assert_eq!(c, 0, "{e}");
-    assert_eq!(snapshot(&dir), new);
-    assert_eq!(leftovers(&parent, "r"), Vec::<String>::new());
-    let _ = fs::remove_dir_all(&parent);
+    let run = |years: &str, d: &str| -> Vec<String> {
+        ["run", "--years", years, "--out", d, "--quiet"]
+            .map(String::from)
+            .to_vec()
+    };
+    kill_trials(
+        &temp_dir("kill9run"),
+        "r",
+        |d| (run("40", d), run("2", d)),
+        10,
+        |k| 30 + 100 * k,
+    );
 }
 
 #[test]
