@@ -91,7 +91,7 @@ proptest! {
         let d = scratch("fuzz-shards");
         let f = d.join("shard-0-of-1.json");
         std::fs::write(&f, mutate(shard_text().as_bytes(), &edits)).unwrap();
-        if let Err(e) = icefold::cli::map::check_shard_file(&f) {
+        if let Err(e) = icefold::cli::shard::check_shard_file(&f) {
             one_line(&e.to_string());
         }
     }

@@ -8,6 +8,6 @@ fuzz_target!(|data: &[u8]| {
     let _ = std::fs::create_dir_all(&dir);
     let f = dir.join("shard-0-of-1.json");
     if std::fs::write(&f, data).is_ok() {
-        let _ = icefold::cli::map::check_shard_file(&f);
+        let _ = icefold::cli::shard::check_shard_file(&f);
     }
 });

@@ -1,6 +1,8 @@
-//! `icefold map` and `icefold merge`: regime maps over two parameters.
+//! `icefold map`: regime maps over two parameters (shards and `merge`:
+//! [`super::shard`]).
 use super::context::{Args, CliError, VERSION, load, written_list};
 use super::progress::Progress;
+use super::shard::{SHARD_FORMAT, ShardFile};
 use crate::analysis::sweep::{
     MapSpec, STATES, Slice, compute_slice, join_boundaries, regime_label, state_bit,
 };
@@ -10,238 +12,14 @@ use crate::io::netcdf::{FILL_F64, FILL_I32, NcFile};
 use crate::io::plot;
 use crate::model::Param;
 use rayon::prelude::*;
-use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
-/// Format tag of shard files.
-const SHARD_FORMAT: &str = "icefold-map-shard-2";
-
-/// A shard file: everything a merge needs to render the map.
-#[derive(Serialize, Deserialize)]
-struct ShardFile {
-    format: String,
-    tool: String,
-    spec: MapSpec,
-    scenario: serde_json::Value,
-    scenario_toml: String,
-    shard: (usize, usize),
-    slices: Vec<Slice>,
-}
-
-fn usage(msg: String) -> CliError {
+pub(super) fn usage(msg: String) -> CliError {
     CliError::Usage(msg)
 }
 
-/// Reads, parses and checks the shard file `f` ([`validate_shard`]).
-fn read_shard(f: &Path) -> Result<ShardFile, CliError> {
-    let text = crate::io::input::read_text(f, crate::io::input::SHARD_MAX_BYTES)
-        .map_err(|e| usage(format!("cannot read {}: {e}", f.display())))?;
-    let shard: ShardFile = serde_json::from_str(&text)
-        .map_err(|e| usage(format!("{}: not a map shard ({e})", f.display())))?;
-    if shard.format != SHARD_FORMAT {
-        return Err(usage(format!(
-            "{}: unknown shard format `{}`",
-            f.display(),
-            shard.format
-        )));
-    }
-    validate_shard(f, &shard)?;
-    Ok(shard)
-}
-
-/// Whether `f` is a shard `merge` accepts: the error `merge` would give
-/// otherwise (for the fuzzing targets and tests).
-pub fn check_shard_file(f: &Path) -> Result<(), CliError> {
-    read_shard(f).map(|_| ())
-}
-
-/// Checks every field of a shard read from `f` against what `map` could
-/// have written: the scenario text equals the scenario it claims, the map
-/// command passes the same checks as `map`'s options, the shard number
-/// fits, and every slice lies on the declared grid with known states,
-/// finite values in their ranges and regime masks that agree with the
-/// climates. A hand-edited shard fails with the field named (exit 2).
-fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, CliError> {
-    use crate::analysis::sweep::{STATES, state_bit};
-    let bad = |field: String, why: String| usage(format!("{}: field `{field}` {why}", f.display()));
-    let sc =
-        crate::io::scenario::Scenario::parse(&shard.scenario_toml, "shard", &[]).map_err(|e| {
-            bad(
-                "scenario_toml".into(),
-                format!("is not a valid scenario ({e})"),
-            )
-        })?;
-    if sc.to_json() != shard.scenario {
-        return Err(bad(
-            "scenario".into(),
-            "does not match the scenario text of the shard (scenario_toml)".into(),
-        ));
-    }
-    let model = sc.model();
-    let sp = &shard.spec;
-    let across_text = format!(
-        "{}={}:{}:{}",
-        sp.across, sp.across_from, sp.across_to, sp.count
-    );
-    let (ap, a_from, a_to, count) = parse_across(&across_text, &model).map_err(|e| {
-        bad(
-            "spec.across".into(),
-            format!("is not a valid --across ({e})"),
-        )
-    })?;
-    if (a_from, a_to, count) != (sp.across_from, sp.across_to, sp.count) {
-        return Err(bad(
-            "spec.across".into(),
-            format!("= `{across_text}` does not read back"),
-        ));
-    }
-    let vp = Param::from_key(&sp.vary).ok_or_else(|| {
-        bad(
-            "spec.vary".into(),
-            format!("= `{}` is not a key --vary takes", sp.vary),
-        )
-    })?;
-    if vp == ap {
-        return Err(bad("spec.vary".into(), "equals spec.across".into()));
-    }
-    let (lo, hi) = vp.range();
-    if !(sp.vary_from.is_finite()
-        && sp.vary_to.is_finite()
-        && sp.vary_from < sp.vary_to
-        && sp.vary_from >= lo
-        && sp.vary_to <= hi)
-    {
-        return Err(bad(
-            "spec.vary_from/vary_to".into(),
-            format!(
-                "= {}..{} is not an increasing range within {lo}..{hi}",
-                sp.vary_from, sp.vary_to
-            ),
-        ));
-    }
-    if !(2..=100_000).contains(&sp.cells) {
-        return Err(bad(
-            "spec.cells".into(),
-            format!("= {} is out of range: allowed 2 to 100000", sp.cells),
-        ));
-    }
-    let (k, n) = shard.shard;
-    if n == 0 || k >= n {
-        return Err(bad(
-            "shard".into(),
-            format!("= {k}/{n}: expected K/N with 0 <= K < N"),
-        ));
-    }
-    let all_bits: u32 = STATES.iter().map(|s| state_bit(*s)).fold(0, |a, b| a | b);
-    let known = |label: &str| STATES.iter().any(|s| s.label() == label);
-    let slack = 1e-9 * (sp.vary_to - sp.vary_from);
-    let in_range = |v: f64| v.is_finite() && v >= sp.vary_from - slack && v <= sp.vary_to + slack;
-    for (si, s) in shard.slices.iter().enumerate() {
-        let at = |field: &str| format!("slices[{si}].{field}");
-        if s.index >= sp.count || s.index % n != k {
-            return Err(bad(
-                at("index"),
-                format!(
-                    "= {} is not a slice of shard {k}/{n} of {} slices",
-                    s.index, sp.count
-                ),
-            ));
-        }
-        if s.across.to_bits() != sp.across_value(s.index).to_bits() {
-            return Err(bad(
-                at("across"),
-                format!(
-                    "= {} is not the grid value {} of slice {}",
-                    s.across,
-                    sp.across_value(s.index),
-                    s.index
-                ),
-            ));
-        }
-        if s.regime.len() != sp.cells
-            || s.stable_count.len() != sp.cells
-            || s.climates.len() != sp.cells
-        {
-            return Err(bad(
-                at("regime"),
-                format!("does not have the {} cells of the map", sp.cells),
-            ));
-        }
-        for c in 0..sp.cells {
-            let mask = s.regime[c];
-            if mask & !all_bits != 0 {
-                return Err(bad(
-                    at(&format!("regime[{c}]")),
-                    format!("= {mask} has bits of no climate state"),
-                ));
-            }
-            let cl = &s.climates[c];
-            if cl.len() != s.stable_count[c] as usize {
-                return Err(bad(
-                    at(&format!("stable_count[{c}]")),
-                    format!(
-                        "= {} but the cell lists {} climates",
-                        s.stable_count[c],
-                        cl.len()
-                    ),
-                ));
-            }
-            let mut seen = 0u32;
-            for (q, x) in cl.iter().enumerate() {
-                let ok = x.state.count_ones() == 1
-                    && x.state & all_bits != 0
-                    && x.global_mean_c.is_finite()
-                    && x.global_mean_c >= crate::model::climate::ABSOLUTE_ZERO_C
-                    && (-90.0..=90.0).contains(&x.ice_edge_north_deg)
-                    && (-90.0..=90.0).contains(&x.ice_edge_south_deg);
-                if !ok {
-                    return Err(bad(
-                        at(&format!("climates[{c}][{q}]")),
-                        "is not a climate (unknown state, non-physical temperature or an edge outside -90..90 deg)".into(),
-                    ));
-                }
-                seen |= x.state;
-            }
-            if seen != mask {
-                return Err(bad(
-                    at(&format!("regime[{c}]")),
-                    format!("= {mask} disagrees with the cell's climates ({seen})"),
-                ));
-            }
-        }
-        for (q, p) in s.points.iter().enumerate() {
-            let ok = known(&p.state)
-                && in_range(p.value)
-                && p.global_mean_c.is_finite()
-                && p.global_mean_c >= crate::model::climate::ABSOLUTE_ZERO_C
-                && (0.0..=1.0).contains(&p.ice_area_fraction)
-                && p.ice_edges_deg.iter().all(|e| (-90.0..=90.0).contains(e));
-            if !ok {
-                return Err(bad(
-                    at(&format!("points[{q}]")),
-                    "is not a traced climate (unknown state, a value outside the traced range, or a temperature, ice fraction or edge out of range)".into(),
-                ));
-            }
-        }
-        for (q, fo) in s.folds.iter().enumerate() {
-            let ok = known(&fo.from_state)
-                && (fo.to_state == "none" || known(&fo.to_state))
-                && in_range(fo.value)
-                && fo.global_mean_c.is_finite()
-                && (-90.0..=90.0).contains(&fo.ice_edge_deg);
-            if !ok {
-                return Err(bad(
-                    at(&format!("folds[{q}]")),
-                    "is not a fold of the map (unknown state, a value outside the traced range or an edge out of range)".into(),
-                ));
-            }
-        }
-    }
-    Ok(model)
-}
-
 /// Parses `KEY=FROM:TO:COUNT`.
-fn parse_across(
+pub(super) fn parse_across(
     text: &str,
     model: &crate::model::Model,
 ) -> Result<(Param, f64, f64, usize), CliError> {
@@ -415,7 +193,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
     Ok(map_report(&spec, &slices) + &written_list(&written))
 }
 
-fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
+pub(super) fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
     let mut seen = std::collections::BTreeSet::new();
     for s in slices.iter().filter(|s| !s.points.is_empty()) {
         for r in &s.regime {
@@ -462,7 +240,7 @@ fn sanitize(key: &str) -> String {
 
 /// Renders the files of a complete map into `out` (staged, not written).
 #[allow(clippy::too_many_arguments)]
-fn render(
+pub(super) fn render(
     model: &crate::model::Model,
     spec: &MapSpec,
     scenario: &serde_json::Value,
@@ -826,137 +604,4 @@ fn map_netcdf(
     );
     nc.global_attr_text("scenario", scenario_toml);
     Ok(nc)
-}
-
-/// Runs `merge DIR...`: joins shard files into the outputs of a single run.
-pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
-    if args.rest.is_empty() {
-        return Err(usage(
-            "merge needs one or more shard directories or files (see icefold --help)".into(),
-        ));
-    }
-    let mut files: Vec<PathBuf> = Vec::new();
-    for p in &args.rest {
-        if p.is_dir() {
-            let rd = std::fs::read_dir(p)
-                .map_err(|e| usage(format!("cannot read {}: {e}", p.display())))?;
-            let mut found: Vec<PathBuf> = rd
-                .filter_map(|e| e.ok().map(|e| e.path()))
-                .filter(|f| {
-                    f.file_name()
-                        .and_then(|n| n.to_str())
-                        .is_some_and(|n| n.starts_with("shard-") && n.ends_with(".json"))
-                })
-                .collect();
-            found.sort();
-            if found.is_empty() {
-                return Err(usage(format!("{}: no shard-*.json files", p.display())));
-            }
-            files.extend(found);
-        } else {
-            files.push(p.clone());
-        }
-    }
-    let mut first: Option<ShardFile> = None;
-    let mut slices: std::collections::BTreeMap<usize, Slice> = std::collections::BTreeMap::new();
-    for f in &files {
-        let shard = read_shard(f)?;
-        if let Some(r) = &first {
-            if r.spec != shard.spec {
-                return Err(usage(format!(
-                    "{}: a shard of a different map command (`{}` vs `{}`)",
-                    f.display(),
-                    shard.spec.command(),
-                    r.spec.command()
-                )));
-            }
-            if r.scenario != shard.scenario {
-                return Err(usage(format!(
-                    "{}: a shard of a different scenario",
-                    f.display()
-                )));
-            }
-            if r.tool != shard.tool {
-                return Err(usage(format!(
-                    "{}: written by {} but others by {}",
-                    f.display(),
-                    shard.tool,
-                    r.tool
-                )));
-            }
-        }
-        for s in &shard.slices {
-            if s.index >= shard.spec.count
-                || s.regime.len() != shard.spec.cells
-                || s.stable_count.len() != shard.spec.cells
-                || s.climates.len() != shard.spec.cells
-                || s.climates
-                    .iter()
-                    .zip(&s.stable_count)
-                    .any(|(c, n)| c.len() != *n as usize)
-            {
-                return Err(usage(format!(
-                    "{}: slice {} does not fit the map",
-                    f.display(),
-                    s.index
-                )));
-            }
-            if let Some(old) = slices.get(&s.index)
-                && old != s
-            {
-                return Err(usage(format!(
-                    "{}: slice {} differs from another shard's",
-                    f.display(),
-                    s.index
-                )));
-            }
-            slices.insert(s.index, s.clone());
-        }
-        if first.is_none() {
-            first = Some(ShardFile {
-                slices: Vec::new(),
-                ..shard
-            });
-        }
-    }
-    let meta = first.ok_or_else(|| usage("no shards given".into()))?;
-    let missing: Vec<usize> = (0..meta.spec.count)
-        .filter(|j| !slices.contains_key(j))
-        .collect();
-    if !missing.is_empty() {
-        let list: Vec<String> = missing.iter().take(10).map(|j| j.to_string()).collect();
-        return Err(usage(format!(
-            "{} of {} slices missing (e.g. {}); run the remaining shards",
-            missing.len(),
-            meta.spec.count,
-            list.join(", ")
-        )));
-    }
-    let slices: Vec<Slice> = slices.into_values().collect();
-    let name = meta
-        .scenario
-        .get("name")
-        .and_then(|v| v.as_str())
-        .unwrap_or("")
-        .to_string();
-    let dir = args
-        .out
-        .clone()
-        .unwrap_or_else(|| PathBuf::from("out").join("map"));
-    let mut out = OutputSet::new();
-    let model = crate::io::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
-        .map_err(|e| usage(format!("shard scenario: {e}")))?
-        .model();
-    render(
-        &model,
-        &meta.spec,
-        &meta.scenario,
-        &meta.scenario_toml,
-        &name,
-        &slices,
-        &dir,
-        &mut out,
-    )?;
-    let written = out.publish(&dir)?;
-    Ok(map_report(&meta.spec, &slices) + &written_list(&written))
 }

@@ -9,6 +9,7 @@ pub mod figures;
 pub mod map;
 pub mod progress;
 pub mod seasons;
+pub mod shard;
 pub mod solve;
 pub mod sun;
 pub mod trace;
@@ -51,7 +52,7 @@ pub fn run(args: &Args) -> Result<String, CliError> {
         "sun" => sun::cmd_sun(args),
         "trace" => trace::cmd_trace(args),
         "map" => map::cmd_map(args),
-        "merge" => map::cmd_merge(args),
+        "merge" => shard::cmd_merge(args),
         "run" => {
             let s = args.years.as_deref().unwrap_or_default();
             let years: usize = s.trim().parse().map_err(|_| {
