@@ -261,19 +261,17 @@ pub fn find_periodic(
     let mut climates: Vec<Periodic> = Vec::new();
     let mut failures = Vec::new();
     for s in starts {
-        match periodic_from(sm, s, opts) {
-            Ok(p) if crate::model::climate::below_absolute_zero(sm.model(), &p.start).is_some() => {
-                let (temperature_c, latitude_deg) =
-                    crate::model::climate::below_absolute_zero(sm.model(), &p.start)
-                        .unwrap_or((f64::NAN, f64::NAN));
-                failures.push((
-                    s.label.clone(),
-                    SeasonalError::Unphysical {
+        let found =
+            periodic_from(sm, s, opts).and_then(
+                |p| match crate::model::climate::below_absolute_zero(sm.model(), &p.start) {
+                    Some((temperature_c, latitude_deg)) => Err(SeasonalError::Unphysical {
                         temperature_c,
                         latitude_deg,
-                    },
-                ));
-            }
+                    }),
+                    None => Ok(p),
+                },
+            );
+        match found {
             Ok(p) => {
                 let dup = climates.iter().any(|o| {
                     o.start

@@ -98,7 +98,8 @@ pub fn ensure_finite(what: &str, values: &[f64]) -> Result<(), ExportError> {
     }
 }
 
-fn io_err(path: &Path, source: std::io::Error) -> ExportError {
+/// [`ExportError::Io`] for `path`.
+pub(crate) fn io_err(path: &Path, source: std::io::Error) -> ExportError {
     ExportError::Io {
         path: path.to_path_buf(),
         source,

@@ -25,7 +25,7 @@
 //! being written, and those listed in the previous set's manifest
 //! [`MANIFEST`]. Anything else is refused, never deleted.
 
-use super::export::ExportError;
+use super::export::{ExportError, io_err};
 use std::ffi::{OsStr, OsString};
 use std::fs;
 use std::io::Write as _;
@@ -39,13 +39,6 @@ pub const MANIFEST: &str = ".icefold-set";
 /// How long a run waits for another live run publishing into the same
 /// `--out`.
 pub const LOCK_WAIT: Duration = Duration::from_secs(60);
-
-fn io_err(path: &Path, source: std::io::Error) -> ExportError {
-    ExportError::Io {
-        path: path.to_path_buf(),
-        source,
-    }
-}
 
 fn refused(what: String) -> ExportError {
     ExportError::Refused { what }
@@ -226,6 +219,24 @@ fn previous_names(dir: &Path) -> Vec<OsString> {
         .unwrap_or_default()
 }
 
+/// Refuses the first entry of `dir` that is neither the manifest, nor
+/// listed in it, nor one of `names` (the set being written).
+fn only_icefold_entries(dir: &Path, names: &[OsString]) -> Result<(), ExportError> {
+    let previous = previous_names(dir);
+    for e in fs::read_dir(dir).map_err(|e| io_err(dir, e))?.flatten() {
+        let n = e.file_name();
+        if n == MANIFEST || names.contains(&n) || previous.contains(&n) {
+            continue;
+        }
+        return Err(refused(format!(
+            "--out `{}` holds `{}`, which icefold did not write there; give a new or empty directory, or one an earlier run of icefold wrote",
+            dir.display(),
+            n.to_string_lossy()
+        )));
+    }
+    Ok(())
+}
+
 /// Refuses an existing `--out` that is not a directory or holds an entry
 /// icefold did not write.
 fn check_existing(dir: &Path, names: &[OsString]) -> Result<bool, ExportError> {
@@ -240,18 +251,7 @@ fn check_existing(dir: &Path, names: &[OsString]) -> Result<bool, ExportError> {
             dir.display()
         )));
     }
-    let previous = previous_names(dir);
-    for e in fs::read_dir(dir).map_err(|e| io_err(dir, e))?.flatten() {
-        let n = e.file_name();
-        if n == MANIFEST || names.contains(&n) || previous.contains(&n) {
-            continue;
-        }
-        return Err(refused(format!(
-            "--out `{}` holds `{}`, which icefold did not write there; give a new or empty directory, or one an earlier run of icefold wrote",
-            dir.display(),
-            n.to_string_lossy()
-        )));
-    }
+    only_icefold_entries(dir, names)?;
     Ok(true)
 }
 
@@ -283,18 +283,7 @@ pub fn precheck(dir: &Path) -> Result<(), ExportError> {
     if !dir.join(MANIFEST).exists() {
         return Ok(());
     }
-    let previous = previous_names(dir);
-    for e in fs::read_dir(dir).map_err(|e| io_err(dir, e))?.flatten() {
-        let n = e.file_name();
-        if n != MANIFEST && !previous.contains(&n) {
-            return Err(refused(format!(
-                "--out `{}` holds `{}`, which icefold did not write there; give a new or empty directory, or one an earlier run of icefold wrote",
-                dir.display(),
-                n.to_string_lossy()
-            )));
-        }
-    }
-    Ok(())
+    only_icefold_entries(dir, &[])
 }
 
 /// A file of the set: its path relative to `--out` and a writer that
