@@ -50,7 +50,9 @@ fn scenario() -> impl Strategy<Value = Vec<String>> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 128, ..ProptestConfig::default() })]
+    // a fixed seed: CI runs the same 128 scenarios every time (a new seed
+    // explores others; see DEVELOPERS.md)
+    #![proptest_config(ProptestConfig { cases: 128, rng_seed: proptest::test_runner::RngSeed::Fixed(20261203), ..ProptestConfig::default() })]
 
     #[test]
     fn equilibria_are_physical_and_balanced(sets in scenario()) {
