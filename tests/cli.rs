@@ -127,9 +127,9 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     assert_eq!(code, 0, "{stderr}");
     assert!(stdout.contains("polar-caps -> snowball"), "{stdout}");
     let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
-    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes\n"));
+    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes,residual\n"));
     let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
-    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,residual,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }
@@ -563,4 +563,74 @@ fn check_names_what_the_seasonal_commands_refuse() {
         temp_dir("symrun").to_str().unwrap(),
     ]);
     assert_eq!(code, 2, "{err}");
+}
+
+/// Every traced point states the residual it reached (issue: a residual
+/// above the requested tolerance is flagged, with the reason). A planet
+/// whose snowball branch ends in an equatorial sliver of open water (the
+/// open region 6e-5 deg wide at its end, where the cells are thin and the
+/// rounding floor of max |F| high): `summary.json` `residual` counts the
+/// points of `branches.csv` and `folds.csv` above `solver.tolerance`, its
+/// maximum is the largest in the files, and stdout names it. An
+/// equilibrium has F = 0 within the residual it states; common practice,
+/// no source.
+#[test]
+fn residuals_above_the_tolerance_are_flagged() {
+    let dir = temp_dir("residual");
+    let out = dir.join("t");
+    let sets = [
+        "orbit.flux=1739.5279780019455",
+        "orbit.obliquity=27.83761233792796",
+        "orbit.eccentricity=0",
+        "radiation.a=222.85525695170716",
+        "radiation.b=1.797198791634942",
+        "transport.diffusivity=0.36607429816724624",
+        "albedo.open=0.2943068084057302",
+        "albedo.ice=0.6074595116682497",
+        "albedo.threshold=-10.43621923362193",
+        "grid.spacing=\"latitude\"",
+    ];
+    let mut args = vec!["trace", "--out", out.to_str().unwrap()];
+    for s in &sets {
+        args.extend(["--set", s]);
+    }
+    let (code, stdout, err) = icefold(&args);
+    assert_eq!(code, 0, "{err}");
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let r = &summary["residual"];
+    assert_eq!(r["unit"], "W m-2");
+    let tol = r["tolerance"].as_f64().unwrap();
+    assert_eq!(tol, 1e-10);
+    let mut values = Vec::new();
+    for file in ["branches.csv", "folds.csv"] {
+        let text = std::fs::read_to_string(out.join(file)).unwrap();
+        let header: Vec<&str> = text.lines().next().unwrap().split(',').collect();
+        let col = header.iter().position(|h| *h == "residual").unwrap();
+        for l in text.lines().skip(1) {
+            let v: f64 = l.split(',').nth(col).unwrap().parse().unwrap();
+            assert!(v.is_finite() && v >= 0.0, "{l}");
+            values.push(v);
+        }
+    }
+    let above = values.iter().filter(|v| **v > tol).count();
+    let worst = values.iter().copied().fold(0.0, f64::max);
+    assert_eq!(r["points"].as_u64().unwrap() as usize, values.len());
+    assert_eq!(
+        r["points_above_tolerance"].as_u64().unwrap() as usize,
+        above
+    );
+    assert!(above > 0, "the sliver end stops above 1e-10 W m-2");
+    assert_eq!(r["max"].as_f64().unwrap(), worst);
+    assert!(worst > 1e-7 && worst < 1e-3, "{worst}");
+    assert!(r["note"].as_str().unwrap().contains("rounding floor"));
+    let line = stdout
+        .lines()
+        .find(|l| l.contains("residual:"))
+        .expect("flag line");
+    assert!(
+        line.contains(&format!("{above} of {}", values.len())),
+        "{line}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
 }

@@ -76,7 +76,7 @@ fn threads_and_shards_give_identical_bytes() {
     // high obliquity (qualitative result of obliquity studies, e.g. Rose,
     // Cronin & Bitz 2017, ApJ 846, 28)
     let csv = std::fs::read_to_string(d1.join("map.csv")).unwrap();
-    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg\n"));
+    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg,residual_wm2\n"));
     let rows: Vec<Vec<&str>> = csv
         .lines()
         .skip(1)
@@ -465,7 +465,7 @@ fn merge_rejects_hand_edited_shards() {
     let original: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(&file).unwrap()).unwrap();
     type Edit = fn(&mut serde_json::Value);
-    let edits: [(&str, Edit); 7] = [
+    let edits: [(&str, Edit); 8] = [
         ("slices[0].regime[3]", |v| {
             v["slices"][0]["regime"][3] = 64.into()
         }),
@@ -478,6 +478,9 @@ fn merge_rejects_hand_edited_shards() {
         ("spec.across", |v| v["spec"]["count"] = 10_000_000.into()),
         ("slices[0].points[0]", |v| {
             v["slices"][0]["points"][0]["global_mean_c"] = (-300.0).into()
+        }),
+        ("slices[0].points[1]", |v| {
+            v["slices"][0]["points"][1]["residual"] = (-1.0).into()
         }),
     ];
     for (field, edit) in edits {

@@ -81,6 +81,9 @@ pub struct MapPoint {
     pub ice_area_fraction: f64,
     /// Northern ice edges, deg.
     pub ice_edges_deg: Vec<f64>,
+    /// The residual the point reached: max |F|, W m-2 (annual-mean
+    /// models).
+    pub residual: f64,
 }
 
 /// One fold of a slice.
@@ -185,6 +188,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
                 global_mean_c: d.global_mean_c,
                 ice_area_fraction: d.ice_area_fraction,
                 ice_edges_deg: d.ice_edges_deg.clone(),
+                residual: q.residual,
             });
         }
         for f in &b.folds {

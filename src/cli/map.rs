@@ -190,10 +190,12 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         &mut out,
     )?;
     let written = out.publish(&dir)?;
-    Ok(map_report(&spec, &slices) + &written_list(&written))
+    Ok(map_report(&spec, tol, &slices) + &written_list(&written))
 }
 
-pub(super) fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
+/// The map's stdout report: regimes present, failed slices, traced points
+/// above the corrector tolerance `tol` (W m-2), notes.
+pub(super) fn map_report(spec: &MapSpec, tol: f64, slices: &[Slice]) -> String {
     let mut seen = std::collections::BTreeSet::new();
     for s in slices.iter().filter(|s| !s.points.is_empty()) {
         for r in &s.regime {
@@ -218,6 +220,15 @@ pub(super) fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
             slices.len()
         );
     }
+    let pts = slices.iter().flat_map(|s| s.points.iter());
+    let above = pts.clone().filter(|q| q.residual > tol).count();
+    let total = pts.clone().count();
+    if above > 0 {
+        let worst = pts.map(|q| q.residual).fold(0.0, f64::max);
+        s += &format!(
+            "  residual: {above} of {total} traced points stop above the tolerance {tol:e} W m-2 at the rounding floor (largest {worst:.3e} W m-2; map.csv residual_wm2, map.nc slice_max_residual)\n"
+        );
+    }
     let notes: usize = slices.iter().map(|s| s.notes.len()).sum();
     if notes > 0 {
         s += &format!(
@@ -227,7 +238,7 @@ pub(super) fn map_report(spec: &MapSpec, slices: &[Slice]) -> String {
     s
 }
 
-fn scenario_num(scenario: &serde_json::Value, key: &str, default: f64) -> f64 {
+pub(super) fn scenario_num(scenario: &serde_json::Value, key: &str, default: f64) -> f64 {
     scenario
         .get(key)
         .and_then(|v| v.as_f64())
@@ -277,6 +288,7 @@ pub(super) fn render(
         "global_mean_temperature_c",
         "ice_area_fraction",
         "ice_edges_deg",
+        "residual_wm2",
     ]);
     for s in slices {
         for q in &s.points {
@@ -291,6 +303,7 @@ pub(super) fn render(
                 Cell::Num(q.global_mean_c),
                 Cell::Num(q.ice_area_fraction),
                 Cell::Text(edges.join(";")),
+                Cell::Num(q.residual),
             ]);
         }
     }
@@ -408,6 +421,14 @@ pub(super) fn render(
         "regimes": names,
         "boundaries": bounds.iter().map(|b| serde_json::json!({"transition": b.transition, "method": b.method, "points": b.points.len()})).collect::<Vec<_>>(),
         "notes": notes,
+        "residual": {
+            "measure": "max |F| over the cells: the energy imbalance of the worst cell",
+            "unit": "W m-2",
+            "tolerance": scenario_num(scenario, "solver.tolerance", 1e-10),
+            "max": slices.iter().flat_map(|s| s.points.iter()).map(|q| q.residual).fold(0.0, f64::max),
+            "points": slices.iter().map(|s| s.points.len()).sum::<usize>(),
+            "points_above_tolerance": slices.iter().flat_map(|s| s.points.iter()).filter(|q| q.residual > scenario_num(scenario, "solver.tolerance", 1e-10)).count(),
+        },
         "failed_slices": failed
             .iter()
             .map(|s| serde_json::json!({ "slice": s.index, ak: s.across, "reasons": s.notes }))
@@ -550,6 +571,32 @@ fn map_netcdf(
         ],
     );
     nc.var_attr_i32(v, "flag_values", &[0, 1]);
+    let worst: Vec<f64> = slices
+        .iter()
+        .map(|s| {
+            if s.points.is_empty() {
+                FILL_F64
+            } else {
+                s.points.iter().map(|q| q.residual).fold(0.0, f64::max)
+            }
+        })
+        .collect();
+    let v = nc.add_var_f64("slice_max_residual", &[adim.as_str()], worst)?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "largest energy imbalance of a cell (max |F|) over the slice's traced points",
+            ),
+            ("units", "W m-2"),
+            (
+                "comment",
+                "above solver.tolerance where Newton reached the rounding floor of double precision (see map.csv residual_wm2)",
+            ),
+        ],
+    );
+    nc.var_attr_f64(v, "_FillValue", &[FILL_F64]);
     let v = nc.add_var_i32("state", &cell3, state)?;
     nc.var_attrs_text(
         v,

@@ -207,11 +207,13 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, Cl
                 && p.global_mean_c.is_finite()
                 && p.global_mean_c >= crate::model::climate::ABSOLUTE_ZERO_C
                 && (0.0..=1.0).contains(&p.ice_area_fraction)
-                && p.ice_edges_deg.iter().all(|e| (-90.0..=90.0).contains(e));
+                && p.ice_edges_deg.iter().all(|e| (-90.0..=90.0).contains(e))
+                && p.residual.is_finite()
+                && p.residual >= 0.0;
             if !ok {
                 return Err(bad(
                     at(&format!("points[{q}]")),
-                    "is not a traced climate (unknown state, a value outside the traced range, or a temperature, ice fraction or edge out of range)".into(),
+                    "is not a traced climate (unknown state, a value outside the traced range, or a temperature, ice fraction, edge or residual out of range)".into(),
                 ));
             }
         }
@@ -362,5 +364,6 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         &mut out,
     )?;
     let written = out.publish(&dir)?;
-    Ok(map_report(&meta.spec, &slices) + &written_list(&written))
+    let tol = super::map::scenario_num(&meta.scenario, "solver.tolerance", 1e-10);
+    Ok(map_report(&meta.spec, tol, &slices) + &written_list(&written))
 }

@@ -156,6 +156,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     };
     let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
     let seasonal = sc.flag("seasons.enabled");
+    let seasonal_opts = crate::analysis::periodic::SeasonalTraceOptions::default();
     let run = |from: f64,
                to: f64,
                progress: &mut dyn FnMut(&str)|
@@ -165,7 +166,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             let sm = sc
                 .seasonal_model()
                 .map_err(|e| CliError::Usage(format!("seasonal model: {e}")))?;
-            let sopts = crate::analysis::periodic::SeasonalTraceOptions::default();
+            let sopts = seasonal_opts;
             let mut h = crate::analysis::periodic::trace_seasonal(
                 &sm, param, from, to, warm, cold, &sopts, progress,
             );
@@ -265,6 +266,20 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             "no branch could be traced; nothing written".into(),
         ));
     }
+    let (tolerance, unit, measure) = if seasonal {
+        (
+            seasonal_opts.tolerance,
+            "K",
+            "max |u - Phi(u)| over the bands: the change of the state over one year",
+        )
+    } else {
+        (
+            opts.tolerance,
+            "W m-2",
+            "max |F| over the cells: the energy imbalance of the worst cell",
+        )
+    };
+    let (residual_summary, residual_line) = residual_report(&h, tolerance, unit, measure);
     let dir = out_dir(args);
     let mut out = OutputSet::new();
     let key = param.key();
@@ -315,6 +330,7 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             })
             .collect(),
     );
+    summary.insert("residual".into(), residual_summary);
     summary.insert("edge_family".into(), skeleton.clone());
     summary.insert(
         "failures".into(),
@@ -404,9 +420,60 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
         };
         s += &format!("  bistable: {key} from {a:.6} to {b:.6}{note}\n");
     }
+    if let Some(line) = residual_line {
+        s += &line;
+    }
     s += &edge_text;
     s += &written_list(&written);
     Ok(s)
+}
+
+/// The residual every traced point and fold reached, against the
+/// requested tolerance: `summary.json` `residual` and, when some points
+/// stop above the tolerance, a line for stdout naming how many, the
+/// largest and why. The corrector accepts max(tolerance, rounding floor)
+/// (8 ε max_i Σ_j |J_ij| (|T_j| + 1), [`crate::numerics::newton::rounding_floor`]),
+/// or 100 times that when Newton stalls there: no double-precision
+/// iteration gets below it. The floor grows with the bands and where a
+/// region of open water or ice shrinks to a sliver next to a change of
+/// ice topology (its cells are thin, the transport terms stiff).
+fn residual_report(
+    h: &Hysteresis,
+    tolerance: f64,
+    unit: &str,
+    measure: &str,
+) -> (serde_json::Value, Option<String>) {
+    let pts: Vec<&crate::analysis::branches::TracedPoint> = h
+        .branches
+        .iter()
+        .flat_map(|b| b.points.iter().chain(b.folds.iter().map(|f| &f.point)))
+        .collect();
+    let above = pts.iter().filter(|q| q.residual > tolerance).count();
+    let worst = pts.iter().map(|q| q.residual).fold(0.0, f64::max);
+    let at = pts
+        .iter()
+        .find(|q| q.residual == worst)
+        .map_or(f64::NAN, |q| q.p);
+    let note = "points above the tolerance stopped where Newton reached the rounding floor of double precision, 8 eps max_i sum_j |J_ij| (|T_j| + 1), or within 100 times it where Newton stalled there (the floor grows with the bands and where a region shrinks to a sliver next to a change of ice topology); each point's residual is in branches.csv and folds.csv";
+    let json = serde_json::json!({
+        "measure": measure,
+        "unit": unit,
+        "tolerance": tolerance,
+        "max": worst,
+        "max_at": if at.is_finite() { Some(at) } else { None },
+        "points": pts.len(),
+        "points_above_tolerance": above,
+        "note": if above > 0 { Some(note) } else { None },
+    });
+    let line = (above > 0).then(|| {
+        format!(
+            "  residual: {above} of {} points stop above the tolerance {tolerance:e} {unit} at the rounding floor (largest {worst:.3e} {unit} at {} = {}; column residual)\n",
+            pts.len(),
+            h.param.key(),
+            decimal(at),
+        )
+    });
+    (json, line)
 }
 
 fn branches_table(h: &Hysteresis) -> Table {
@@ -420,6 +487,7 @@ fn branches_table(h: &Hysteresis) -> Table {
         "state",
         "stable",
         "unstable_modes",
+        "residual",
     ]);
     for b in &h.branches {
         for q in &b.points {
@@ -433,6 +501,7 @@ fn branches_table(h: &Hysteresis) -> Table {
                 Cell::Text(d.state.label().into()),
                 Cell::Bool(q.unstable_modes == 0),
                 Cell::Int(q.unstable_modes as i64),
+                Cell::Num(q.residual),
             ]);
         }
     }
@@ -481,6 +550,7 @@ fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
         "from_state",
         "to_state",
         "jump_time_yr",
+        "residual",
     ];
     columns.extend(names.iter().map(String::as_str));
     let mut t = Table::new(&columns);
@@ -503,6 +573,7 @@ fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
                 f.jump_years
                     .filter(|y| y.is_finite())
                     .map_or(Cell::Text(String::new()), Cell::Num),
+                Cell::Num(f.point.residual),
             ];
             // an empty cell where the sensitivity was not computed
             row.extend(
@@ -537,7 +608,7 @@ fn folds_json(h: &Hysteresis, model: &crate::model::Model) -> serde_json::Value 
                 "global_mean_temperature_c": d.global_mean_c,
                 "ice_area_fraction": d.ice_area_fraction,
                 "ice_edge_north_deg": poleward_edge_deg(d),
-                "residual_wm2": f.point.residual,
+                "residual": f.point.residual,
                 "from_state": f.from_state.label(),
                 "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
                 "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
