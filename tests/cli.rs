@@ -129,7 +129,7 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
     assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes,residual\n"));
     let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
-    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,residual,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,residual,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_forcing,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }
@@ -367,6 +367,11 @@ fn trace_writes_fold_sensitivities() {
         (dc + 5.35 / 280.0 * da).abs() < 1e-9 * dc.abs(),
         "{dc} vs {da}"
     );
+    // a radiative forcing F enters the balance as -A does (Wagner &
+    // Eisenman 2015, eq. 1, with L = A + B T): the fold moves as much per
+    // W m-2 of F as per -1 W m-2 of A
+    let df = cell("d_radiation_forcing");
+    assert!((df + da).abs() < 1e-9 * da.abs(), "{df} vs {da}");
 }
 
 /// Every branch once, every row once: the default trace lists each traced

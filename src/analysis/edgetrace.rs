@@ -74,8 +74,8 @@ impl EdgeProblem {
 
     /// Whether, with the edges held fixed, the residual is affine in the
     /// state and the continuation coordinate together: linear OLR and a
-    /// parameter entering as a source term (flux, radiation.a, the
-    /// threshold, CO2 in ln C). Then the state at a given edge is unique.
+    /// parameter entering as a source term (flux, radiation.a,
+    /// radiation.forcing, the threshold, CO2 in ln C). Then the state at a given edge is unique.
     pub fn affine(&self) -> bool {
         let linear = matches!(
             self.em.model.planet.olr,
@@ -83,7 +83,7 @@ impl EdgeProblem {
         );
         linear
             && match self.param {
-                Param::Flux | Param::OlrA | Param::Threshold => true,
+                Param::Flux | Param::OlrA | Param::Forcing | Param::Threshold => true,
                 Param::Co2 => self.log,
                 _ => false,
             }

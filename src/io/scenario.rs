@@ -424,6 +424,7 @@ impl Scenario {
             olr,
             co2_ppm: self.num("radiation.co2_ppm"),
             co2_ref_ppm: self.num("radiation.co2_ref_ppm"),
+            forcing_wm2: self.num("radiation.forcing"),
             transport,
             heat_capacity: vec![c],
         }

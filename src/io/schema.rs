@@ -207,6 +207,14 @@ pub const SCHEMA: &[KeySpec] = &[
         doc: "CO2 at which the forcing is zero.",
     },
     KeySpec {
+        key: "radiation.forcing",
+        label: "Radiative forcing F",
+        kind: num(-1e3, 1e3),
+        default: "0.0",
+        unit: "W m-2",
+        doc: "Added to the absorbed flux in every model (the forcing F of Wagner & Eisenman 2015); continuation and maps may vary it.",
+    },
+    KeySpec {
         key: "albedo.kind",
         label: "Albedo law",
         kind: Kind::Choice(&["step", "smooth"]),

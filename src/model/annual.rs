@@ -35,6 +35,9 @@ pub struct Planet {
     pub olr: OlrLaw,
     /// CO2 concentration, ppm.
     pub co2_ppm: f64,
+    /// Radiative forcing F added to the absorbed flux, W m-2
+    /// (`radiation.forcing`; Wagner & Eisenman 2015, eq. 1).
+    pub forcing_wm2: f64,
     /// Reference CO2 concentration for zero forcing, ppm.
     pub co2_ref_ppm: f64,
     /// Heat transport.
@@ -56,6 +59,8 @@ pub enum Param {
     InsolationP2,
     /// `radiation.co2_ppm`, ppm.
     Co2,
+    /// `radiation.forcing`, W m-2.
+    Forcing,
     /// `radiation.a`, W m-2.
     OlrA,
     /// `radiation.b`, W m-2 K-1.
@@ -76,12 +81,13 @@ pub enum Param {
 
 impl Param {
     /// Every parameter, in documentation order.
-    pub const ALL: [Param; 13] = [
+    pub const ALL: [Param; 14] = [
         Param::Flux,
         Param::Obliquity,
         Param::Eccentricity,
         Param::InsolationP2,
         Param::Co2,
+        Param::Forcing,
         Param::OlrA,
         Param::OlrB,
         Param::Emissivity,
@@ -100,6 +106,7 @@ impl Param {
             Param::Eccentricity => "orbit.eccentricity",
             Param::InsolationP2 => "insolation.p2",
             Param::Co2 => "radiation.co2_ppm",
+            Param::Forcing => "radiation.forcing",
             Param::OlrA => "radiation.a",
             Param::OlrB => "radiation.b",
             Param::Emissivity => "radiation.emissivity",
@@ -114,7 +121,7 @@ impl Param {
     /// Unit of the parameter ("1" when dimensionless, UDUNITS style).
     pub fn unit(self) -> &'static str {
         match self {
-            Param::Flux | Param::OlrA => "W m-2",
+            Param::Flux | Param::OlrA | Param::Forcing => "W m-2",
             Param::Obliquity => "degree",
             Param::Co2 => "ppm",
             Param::OlrB | Param::Diffusivity | Param::Relaxation => "W m-2 K-1",
@@ -137,6 +144,7 @@ impl Param {
             Param::Eccentricity => (0.0, 0.9),
             Param::InsolationP2 => (-1.0, 2.0),
             Param::Co2 => (1e-3, 1e6),
+            Param::Forcing => (-1e3, 1e3),
             Param::OlrA => (-1e4, 1e4),
             Param::OlrB => (1e-6, 1e3),
             Param::Emissivity => (1e-6, 1.0),
@@ -197,8 +205,9 @@ impl Model {
         m
     }
 
-    /// Greenhouse forcing 5.35 ln(C/C0) W m-2 subtracted from the OLR
-    /// (Myhre et al. 1998).
+    /// Total radiative forcing, W m-2, subtracted from the OLR (the same as
+    /// adding it to the absorbed flux): the greenhouse forcing
+    /// 5.35 ln(C/C0) of CO2 (Myhre et al. 1998) plus `radiation.forcing`.
     pub fn forcing(&self) -> f64 {
         self.forcing
     }
@@ -281,7 +290,8 @@ impl Model {
     }
 
     fn rebuild_forcing(&mut self) {
-        self.forcing = co2_forcing(self.planet.co2_ppm, self.planet.co2_ref_ppm);
+        self.forcing =
+            co2_forcing(self.planet.co2_ppm, self.planet.co2_ref_ppm) + self.planet.forcing_wm2;
     }
 
     /// Residual F(T) (W m-2) into `f`, and when `jac` is given its Jacobian
@@ -334,6 +344,7 @@ impl Model {
                 InsolationLaw::Orbital => f64::NAN,
             },
             Param::Co2 => pl.co2_ppm,
+            Param::Forcing => pl.forcing_wm2,
             Param::OlrA => match pl.olr {
                 OlrLaw::Linear { a, .. } => a,
                 _ => f64::NAN,
@@ -384,6 +395,11 @@ impl Model {
             }
             Param::Co2 => {
                 pl.co2_ppm = v;
+                self.rebuild_forcing();
+                return;
+            }
+            Param::Forcing => {
+                pl.forcing_wm2 = v;
                 self.rebuild_forcing();
                 return;
             }
@@ -470,6 +486,7 @@ impl Model {
                 }
             }
             Param::Co2 => out.fill(5.35 / self.planet.co2_ppm),
+            Param::Forcing => out.fill(1.0),
             Param::OlrA => out.fill(-1.0),
             Param::OlrB => {
                 for i in 0..n {

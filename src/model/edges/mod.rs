@@ -609,7 +609,7 @@ impl EdgeModel {
     }
 
     /// ∂(F, g)/∂q at u where the residual is affine in q (flux, radiation.a,
-    /// radiation.b, CO2 through its forcing 5.35 ln(C/C0) (Myhre et al.
+    /// radiation.b, radiation.forcing, CO2 through its forcing 5.35 ln(C/C0) (Myhre et al.
     /// 1998), albedo.threshold); `false` for every other parameter.
     pub fn d_linear(&mut self, q: crate::model::Param, u: &[f64], out: &mut [f64]) -> bool {
         use crate::model::Param;
@@ -630,6 +630,7 @@ impl EdgeModel {
                 Param::OlrA if linear => -w,
                 Param::OlrB if linear => -u[i] * w,
                 Param::Co2 => 5.35 / self.model.planet.co2_ppm * w,
+                Param::Forcing => w,
                 Param::Threshold => 0.0,
                 _ => return false,
             };
