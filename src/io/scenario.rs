@@ -263,6 +263,23 @@ impl Scenario {
                 allowed: "-1 to 2 (insolation must stay non-negative)".into(),
             });
         }
+        if self.text("insolation.kind") == "idealised" {
+            // the annual mean S0 - S2 x² of the idealised law must stay
+            // non-negative on 0 <= x <= 1, with S0 = flux/4 + S2/3
+            let (q, s2) = (self.num("orbit.flux") / 4.0, self.num("insolation.s2"));
+            if !(s2 >= -3.0 * q && s2 <= 1.5 * q) {
+                return Err(ScenarioError::OutOfRange {
+                    key: "insolation.s2".into(),
+                    value: fmt_num(s2),
+                    allowed: format!(
+                        "{} to {} W m-2 for orbit.flux = {} (the annual mean S0 - S2 x², S0 = flux/4 + S2/3, must stay non-negative)",
+                        fmt_num(-3.0 * q),
+                        fmt_num(1.5 * q),
+                        fmt_num(4.0 * q)
+                    ),
+                });
+            }
+        }
         if self.flag("seasons.enabled") && self.flag("grid.symmetric") {
             return Err(ScenarioError::OutOfRange {
                 key: "grid.symmetric".into(),
@@ -375,12 +392,18 @@ impl Scenario {
             eccentricity: self.num("orbit.eccentricity"),
             perihelion: self.num("orbit.perihelion").to_radians(),
         };
-        let insolation = if self.text("insolation.kind") == "legendre" {
-            InsolationLaw::Legendre {
+        let insolation = match self.text("insolation.kind") {
+            "legendre" => InsolationLaw::Legendre {
                 p2: self.num("insolation.p2"),
+            },
+            "idealised" => {
+                let q = orbit.flux / 4.0;
+                InsolationLaw::Idealised {
+                    s1: self.num("insolation.s1") / q,
+                    s2: self.num("insolation.s2") / q,
+                }
             }
-        } else {
-            InsolationLaw::Orbital
+            _ => InsolationLaw::Orbital,
         };
         let albedo = Albedo {
             kind: if self.text("albedo.kind") == "smooth" {

@@ -80,7 +80,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Text { max: 4000 },
         default: "\"\"",
         unit: "",
-        doc: "Free text.",
+        doc: "Free text (no control characters but line breaks and tabs).",
     },
     KeySpec {
         key: "grid.bands",
@@ -141,10 +141,10 @@ pub const SCHEMA: &[KeySpec] = &[
     KeySpec {
         key: "insolation.kind",
         label: "Insolation law",
-        kind: Kind::Choice(&["orbital", "legendre"]),
+        kind: Kind::Choice(&["orbital", "legendre", "idealised"]),
         default: "\"orbital\"",
         unit: "",
-        doc: "Exact annual mean over the orbit (Berger 1978), or (S0/4)(1 + p2 P2(x)) (North 1975).",
+        doc: "Exact annual mean over the orbit (Berger 1978), (S0/4)(1 + p2 P2(x)) (North 1975), or the seasonal max(0, S0 + S1 x sin 2πt - S2 x²) of Wagner & Eisenman (2015), t = 0 at the northern spring equinox, S0 = orbit.flux/4 + S2/3.",
     },
     KeySpec {
         key: "insolation.p2",
@@ -153,6 +153,22 @@ pub const SCHEMA: &[KeySpec] = &[
         default: "-0.482",
         unit: "",
         doc: "P2 coefficient of the Legendre law.",
+    },
+    KeySpec {
+        key: "insolation.s1",
+        label: "Seasonal amplitude S1",
+        kind: num(0.0, 1e4),
+        default: "338.0",
+        unit: "W m-2",
+        doc: "S1 of the idealised law (Wagner & Eisenman 2015, Table 1: 338 W m-2); scales with orbit.flux.",
+    },
+    KeySpec {
+        key: "insolation.s2",
+        label: "Equator-to-pole contrast S2",
+        kind: num(-1e4, 1e4),
+        default: "240.0",
+        unit: "W m-2",
+        doc: "S2 of the idealised law (Wagner & Eisenman 2015, Table 1: 240 W m-2); -3 flux/4 to 1.5 flux/4 so that the annual mean stays non-negative; scales with orbit.flux.",
     },
     KeySpec {
         key: "radiation.kind",

@@ -341,7 +341,7 @@ impl Model {
             Param::Eccentricity => pl.orbit.eccentricity,
             Param::InsolationP2 => match pl.insolation {
                 InsolationLaw::Legendre { p2 } => p2,
-                InsolationLaw::Orbital => f64::NAN,
+                InsolationLaw::Orbital | InsolationLaw::Idealised { .. } => f64::NAN,
             },
             Param::Co2 => pl.co2_ppm,
             Param::Forcing => pl.forcing_wm2,

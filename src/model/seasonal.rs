@@ -113,7 +113,9 @@ pub enum SeasonalError {
 /// S the daily mean of Berger (1978) ([`daily_mean`]) at the orbit position
 /// of year fraction t (Kepler's equation, [`crate::physics::orbit::Orbit::position`]),
 /// the integral by 4-point Gauss-Legendre per step. The Legendre law has no
-/// seasons: every table is its annual mean.
+/// seasons: every table is its annual mean. The idealised law of Wagner &
+/// Eisenman (2015) is averaged exactly
+/// ([`crate::physics::insolation::clipped_sine_integral`]).
 pub fn insolation_tables(model: &Model, steps: usize) -> Vec<[f64; 3]> {
     let pts = model.insolation_sample_points();
     let halves = pts.len();
@@ -127,6 +129,20 @@ pub fn insolation_tables(model: &Model, steps: usize) -> Vec<[f64; 3]> {
             for k in 0..steps {
                 for (h, p) in pts.iter().enumerate() {
                     out[k * halves + h] = p.map(|x| ins.annual_mean(x));
+                }
+            }
+        }
+        InsolationLaw::Idealised { s1, s2 } => {
+            // exact step averages of (1/4) max(0, a + c sin 2πt)
+            let d = 2.0 * std::f64::consts::PI / steps as f64;
+            for k in 0..steps {
+                let (t1, t2) = (k as f64 * d, (k + 1) as f64 * d);
+                for (h, p) in pts.iter().enumerate() {
+                    out[k * halves + h] = p.map(|x| {
+                        let a = 1.0 + s2 / 3.0 - s2 * x * x;
+                        0.25 * crate::physics::insolation::clipped_sine_integral(a, s1 * x, t1, t2)
+                            / d
+                    });
                 }
             }
         }

@@ -62,6 +62,76 @@ pub enum InsolationLaw {
         /// Coefficient of P2(x); about -0.48 for present-day Earth.
         p2: f64,
     },
+    /// The idealised seasonal law of Wagner & Eisenman (2015, eq. 3),
+    /// S(x, t) = S0 - S1 x cos(ω t') - S2 x², written with our year origin
+    /// (t = 0 at the northern spring equinox, a quarter year after their
+    /// t' = 0 at the northern winter solstice) as
+    ///
+    /// S(x, t) = max(0, S0 + S1 x sin 2πt - S2 x²),
+    ///
+    /// clipped at zero where the formula would go negative (the winter pole
+    /// for their Table 1 values: 420 - 338 - 240 = -158 W m-2; sunlight is
+    /// never negative). Stored per unit S̄ = flux/4 as `s1` = S1/S̄ and
+    /// `s2` = S2/S̄ with S0/S̄ = 1 + s2/3, so that the global annual mean of
+    /// the unclipped formula is flux/4 and the whole law scales with
+    /// `orbit.flux` (a brighter star scales S0, S1 and S2 alike).
+    Idealised {
+        /// S1 / (flux/4).
+        s1: f64,
+        /// S2 / (flux/4).
+        s2: f64,
+    },
+}
+
+/// ∫_{θ1}^{θ2} max(0, a + c sin θ) dθ, exactly: the integrand
+/// a + c sin θ (antiderivative a θ - c cos θ) on the pieces between its
+/// roots where it is positive.
+pub fn clipped_sine_integral(a: f64, c: f64, th1: f64, th2: f64) -> f64 {
+    let prim = |t: f64| a * t - c * t.cos();
+    if c == 0.0 || a >= c.abs() {
+        return if a > 0.0 || c != 0.0 {
+            prim(th2) - prim(th1)
+        } else {
+            0.0
+        };
+    }
+    if a <= -c.abs() {
+        return 0.0;
+    }
+    // roots of a + c sin θ in [θ1, θ2]
+    let r = (-a / c).asin();
+    let two_pi = 2.0 * PI;
+    let mut cuts = vec![th1, th2];
+    let k0 = ((th1 - PI) / two_pi).floor() as i64 - 1;
+    let k1 = ((th2 + PI) / two_pi).ceil() as i64 + 1;
+    for k in k0..=k1 {
+        for root in [r, PI - r] {
+            let t = root + two_pi * k as f64;
+            if t > th1 && t < th2 {
+                cuts.push(t);
+            }
+        }
+    }
+    cuts.sort_by(f64::total_cmp);
+    cuts.windows(2)
+        .filter(|w| a + c * (0.5 * (w[0] + w[1])).sin() > 0.0)
+        .map(|w| prim(w[1]) - prim(w[0]))
+        .sum()
+}
+
+/// Annual mean of max(0, a + c sin θ) over a full cycle:
+/// a when |c| <= a, 0 when a <= -|c|, otherwise
+/// [a (π - 2θ0) + 2|c| cos θ0] / (2π) with θ0 = asin(-a/|c|).
+pub fn clipped_sine_mean(a: f64, c: f64) -> f64 {
+    let c = c.abs();
+    if a >= c {
+        a
+    } else if a <= -c {
+        0.0
+    } else {
+        let th0 = (-a / c).asin();
+        (a * (PI - 2.0 * th0) + 2.0 * c * th0.cos()) / (2.0 * PI)
+    }
 }
 
 /// Annual-mean insolation as a function of latitude.
@@ -124,6 +194,9 @@ impl Insolation {
         let o = &self.orbit;
         match self.law {
             InsolationLaw::Legendre { p2: c } => o.flux / 4.0 * (1.0 + c * p2(x)),
+            InsolationLaw::Idealised { s1, s2 } => {
+                o.flux / 4.0 * clipped_sine_mean(1.0 + s2 / 3.0 - s2 * x * x, s1 * x)
+            }
             InsolationLaw::Orbital => {
                 let sin_eps = o.obliquity.sin().abs();
                 let cos_phi = (1.0 - x * x).max(0.0).sqrt();
@@ -171,6 +244,10 @@ impl Insolation {
     pub fn daily(&self, x: f64, t: f64) -> f64 {
         match self.law {
             InsolationLaw::Legendre { .. } => self.annual_mean(x),
+            InsolationLaw::Idealised { s1, s2 } => {
+                let a = 1.0 + s2 / 3.0 - s2 * x * x;
+                self.orbit.flux / 4.0 * (a + s1 * x * (2.0 * PI * t).sin()).max(0.0)
+            }
             InsolationLaw::Orbital => {
                 let p = self.orbit.position(t);
                 daily_mean(self.orbit.flux, x, p.declination, p.distance_factor)
@@ -195,8 +272,21 @@ pub struct InsolationTable {
 }
 
 /// What an insolation table depends on: flux, obliquity, eccentricity, law
-/// (tag and P2 coefficient) as bits, and the node count.
-type TableKey = (u64, u64, u64, u8, u64, usize);
+/// (tag and its coefficients) as bits, and the node count.
+type TableKey = (u64, u64, u64, u8, u64, u64, usize);
+
+/// The x in (0, 1) where the idealised law (per unit flux/4, coefficients
+/// `s1`, `s2`) starts to be clipped at zero during the year:
+/// s1 x = 1 + s2/3 - s2 x²; 2 (beyond the pole) when it never is.
+pub fn idealised_clip_start(s1: f64, s2: f64) -> f64 {
+    let s0 = 1.0 + s2 / 3.0;
+    let x = if s2.abs() < 1e-300 {
+        if s1 > 0.0 { s0 / s1 } else { 2.0 }
+    } else {
+        (-s1 + (s1 * s1 + 4.0 * s2 * s0).max(0.0).sqrt()) / (2.0 * s2)
+    };
+    if x > 0.0 && x < 1.0 { x } else { 2.0 }
+}
 
 /// Tables built recently in this process, most recent first.
 static TABLES: Mutex<Vec<(TableKey, Arc<InsolationTable>)>> = Mutex::new(Vec::new());
@@ -225,6 +315,8 @@ impl InsolationTable {
         let polar = match ins.law {
             InsolationLaw::Orbital => ins.orbit.obliquity.cos().abs(),
             InsolationLaw::Legendre { .. } => 2.0,
+            // where the clipping of the idealised law begins: |S1 x| = S0 - S2 x²
+            InsolationLaw::Idealised { s1, s2 } => idealised_clip_start(s1, s2),
         };
         // Simpson on [a, b] with the end values known: (∫ s, ∫ s P2)
         let simpson = |a: f64, b: f64, sa: f64, sb: f64| {
@@ -272,9 +364,10 @@ impl InsolationTable {
     /// node count built earlier in this process is reused (the result is
     /// the same table bit for bit, whichever thread built it).
     pub fn shared(ins: &Insolation, nodes: usize) -> Arc<InsolationTable> {
-        let (tag, c) = match ins.law {
-            InsolationLaw::Orbital => (0, 0.0),
-            InsolationLaw::Legendre { p2 } => (1, p2),
+        let (tag, c, d) = match ins.law {
+            InsolationLaw::Orbital => (0, 0.0, 0.0),
+            InsolationLaw::Legendre { p2 } => (1, p2, 0.0),
+            InsolationLaw::Idealised { s1, s2 } => (2, s1, s2),
         };
         let key = (
             ins.orbit.flux.to_bits(),
@@ -282,6 +375,7 @@ impl InsolationTable {
             ins.orbit.eccentricity.to_bits(),
             tag,
             c.to_bits(),
+            d.to_bits(),
             nodes,
         );
         if let Ok(mut kept) = TABLES.lock()
