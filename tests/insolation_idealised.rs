@@ -42,7 +42,14 @@ fn brute(f: impl Fn(f64) -> f64, a: f64, b: f64) -> f64 {
 
 #[test]
 fn clipped_sine_integrals_match_quadrature() {
-    for (a, c) in [(1.0, 0.5), (0.3, 1.0), (-0.4, 1.0), (-2.0, 1.0), (0.2, -0.9), (0.0, 1.0)] {
+    for (a, c) in [
+        (1.0, 0.5),
+        (0.3, 1.0),
+        (-0.4, 1.0),
+        (-2.0, 1.0),
+        (0.2, -0.9),
+        (0.0, 1.0),
+    ] {
         let mean = clipped_sine_mean(a, c);
         let q = brute(|t: f64| (a + c * t.sin()).max(0.0), 0.0, 2.0 * PI) / (2.0 * PI);
         assert!((mean - q).abs() < 1e-9, "mean a={a} c={c}: {mean} vs {q}");
@@ -99,13 +106,23 @@ fn seasonal_tables_average_to_the_annual_mean() {
     let ins = table1();
     for (h, p) in pts.iter().enumerate() {
         for j in 0..3 {
-            let mean: f64 = (0..steps).map(|k| tables[k * pts.len() + h][j]).sum::<f64>() / steps as f64;
+            let mean: f64 = (0..steps)
+                .map(|k| tables[k * pts.len() + h][j])
+                .sum::<f64>()
+                / steps as f64;
             let want = ins.annual_mean(p[j]) / 1360.0;
-            assert!((mean - want).abs() < 1e-13, "x = {}: {mean} vs {want}", p[j]);
+            assert!(
+                (mean - want).abs() < 1e-13,
+                "x = {}: {mean} vs {want}",
+                p[j]
+            );
             // and each step's value is the average over its step
             let k = 5;
-            let q = brute(|t| ins.daily(p[j], t), k as f64 / steps as f64, (k + 1) as f64 / steps as f64)
-                * steps as f64
+            let q = brute(
+                |t| ins.daily(p[j], t),
+                k as f64 / steps as f64,
+                (k + 1) as f64 / steps as f64,
+            ) * steps as f64
                 / 1360.0;
             assert!((tables[k * pts.len() + h][j] - q).abs() < 1e-9);
         }
@@ -123,9 +140,26 @@ fn without_seasons_it_is_the_legendre_law() {
     let trace = |sets: Vec<String>| {
         let sc = Scenario::load(None, &sets).unwrap();
         let m = sc.model();
-        let opts = TraceOptions { integrate_jumps: false, sensitivities: false, ..TraceOptions::default() };
-        let h = trace_all(&m, Param::Flux, 1000.0, 2200.0, 30.0, -60.0, &opts, &mut |_| {});
-        let mut f: Vec<f64> = h.branches.iter().flat_map(|b| b.folds.iter().map(|f| f.point.p)).collect();
+        let opts = TraceOptions {
+            integrate_jumps: false,
+            sensitivities: false,
+            ..TraceOptions::default()
+        };
+        let h = trace_all(
+            &m,
+            Param::Flux,
+            1000.0,
+            2200.0,
+            30.0,
+            -60.0,
+            &opts,
+            &mut |_| {},
+        );
+        let mut f: Vec<f64> = h
+            .branches
+            .iter()
+            .flat_map(|b| b.folds.iter().map(|f| f.point.p))
+            .collect();
         f.sort_by(f64::total_cmp);
         f
     };
@@ -152,9 +186,15 @@ fn without_seasons_it_is_the_legendre_law() {
 fn a_negative_annual_mean_is_refused() {
     let err = Scenario::load(
         None,
-        &["insolation.kind=\"idealised\"".into(), "insolation.s2=600".into()],
+        &[
+            "insolation.kind=\"idealised\"".into(),
+            "insolation.s2=600".into(),
+        ],
     )
     .unwrap_err()
     .to_string();
-    assert!(err.contains("insolation.s2") && err.contains("non-negative"), "{err}");
+    assert!(
+        err.contains("insolation.s2") && err.contains("non-negative"),
+        "{err}"
+    );
 }

@@ -210,13 +210,15 @@ pub fn periodic_from(
     start: &Start,
     opts: &ShootingOptions,
 ) -> Result<Periodic, SeasonalError> {
-    match shoot(sm, &start.temperature, opts) {
+    // the start is a temperature profile; with sea ice the state is E
+    let u0 = sm.state_from_temperature(&start.temperature);
+    match shoot(sm, &u0, opts) {
         Ok(mut p) => {
             p.label.clone_from(&start.label);
             Ok(p)
         }
         Err(first) => {
-            let mut t = start.temperature.clone();
+            let mut t = u0;
             let years = opts.spin_up_years;
             let _ = spin_up(sm, &mut t, 1e-4, years);
             match shoot(sm, &t, opts) {
@@ -252,6 +254,19 @@ pub struct PeriodicSearch {
     pub failures: Vec<(String, SeasonalError)>,
 }
 
+/// The surface temperature at the start of the year of periodic state `u`:
+/// `u` itself, or with sea ice that after one year from `u` (allocates).
+pub fn start_surface(sm: &mut SeasonalModel, u: &[f64]) -> Vec<f64> {
+    if !sm.has_sea_ice() {
+        return u.to_vec();
+    }
+    let mut t = u.to_vec();
+    match sm.year(&mut t) {
+        Ok(()) => sm.surface_temperature(&t).to_vec(),
+        Err(_) => vec![f64::NAN; u.len()],
+    }
+}
+
 /// Shoots from every start and keeps the distinct periodic climates.
 pub fn find_periodic(
     sm: &mut SeasonalModel,
@@ -261,16 +276,16 @@ pub fn find_periodic(
     let mut climates: Vec<Periodic> = Vec::new();
     let mut failures = Vec::new();
     for s in starts {
-        let found =
-            periodic_from(sm, s, opts).and_then(
-                |p| match crate::model::climate::below_absolute_zero(sm.model(), &p.start) {
-                    Some((temperature_c, latitude_deg)) => Err(SeasonalError::Unphysical {
-                        temperature_c,
-                        latitude_deg,
-                    }),
-                    None => Ok(p),
-                },
-            );
+        let found = periodic_from(sm, s, opts).and_then(|p| {
+            let surface = start_surface(sm, &p.start);
+            match crate::model::climate::below_absolute_zero(sm.model(), &surface) {
+                Some((temperature_c, latitude_deg)) => Err(SeasonalError::Unphysical {
+                    temperature_c,
+                    latitude_deg,
+                }),
+                None => Ok(p),
+            }
+        });
         match found {
             Ok(p) => {
                 let dup = climates.iter().any(|o| {
@@ -303,8 +318,8 @@ pub fn polar_ice_edges(model: &Model, t: &[f64]) -> (f64, f64) {
 pub struct Cycle {
     /// Year fraction of each sample, k/N, k = 0..N-1.
     pub times: Vec<f64>,
-    /// Temperature per band at each sample (sample 0 is the start state,
-    /// sample k ≥ 1 the state after step k-1), °C.
+    /// Surface temperature per band at each sample (sample 0 is the start
+    /// state, sample k ≥ 1 the state after step k-1), °C.
     pub states: Vec<Vec<f64>>,
     /// Global mean temperature per sample, °C.
     pub global_mean_c: Vec<f64>,
@@ -322,6 +337,11 @@ pub struct Cycle {
     pub toa_annual_mean: f64,
     /// Largest minus smallest temperature over the year per band, K.
     pub amplitude: Vec<f64>,
+    /// Sea-ice thickness per sample and band, m (zero without sea ice).
+    pub ice_thickness: Vec<Vec<f64>>,
+    /// Per sample the profile whose sign marks the ice (below the model's
+    /// albedo threshold: T itself, or E/c_w with threshold 0 with sea ice).
+    pub ice_profiles: Vec<Vec<f64>>,
 }
 
 impl Cycle {
@@ -368,17 +388,30 @@ pub fn cycle(sm: &mut SeasonalModel, u: &[f64]) -> Result<Cycle, SeasonalError> 
     let n = sm.len();
     let steps = sm.steps_per_year();
     let mut t = u.to_vec();
-    let mut after: Vec<Vec<f64>> = Vec::with_capacity(steps);
+    // per step: surface temperature, model state
+    let mut after: Vec<(Vec<f64>, Vec<f64>)> = Vec::with_capacity(steps);
     let mut toa = vec![0.0; steps];
     for k in 0..steps {
         sm.step(k, &mut t, false)?;
         toa[(k + 1) % steps] = sm.toa_net(k, &t);
-        after.push(t.clone());
+        after.push((sm.surface_temperature(&t).to_vec(), t.clone()));
     }
-    // sample 0 is u itself (≡ the state after the last step for a periodic u)
+    // sample 0 is u itself (≡ the state after the last step for a periodic
+    // u; with sea ice its surface temperature is that of the last step)
     let mut states = Vec::with_capacity(steps);
-    states.push(u.to_vec());
-    states.extend(after.into_iter().take(steps - 1));
+    let mut raw = Vec::with_capacity(steps);
+    let last = after
+        .last()
+        .map(|a| a.0.clone())
+        .unwrap_or_else(|| u.to_vec());
+    states.push(if sm.has_sea_ice() { last } else { u.to_vec() });
+    raw.push(u.to_vec());
+    for (s, r) in after.into_iter().take(steps - 1) {
+        states.push(s);
+        raw.push(r);
+    }
+    let ice_profiles: Vec<Vec<f64>> = raw.iter().map(|r| sm.ice_profile(r)).collect();
+    let ice_thickness: Vec<Vec<f64>> = raw.iter().map(|r| sm.ice_thickness(r)).collect();
     let model = sm.model().clone();
     let g = &model.grid;
     let mut annual = vec![0.0; n];
@@ -394,8 +427,16 @@ pub fn cycle(sm: &mut SeasonalModel, u: &[f64]) -> Result<Cycle, SeasonalError> 
     Ok(Cycle {
         times: (0..steps).map(|k| k as f64 / steps as f64).collect(),
         global_mean_c: states.iter().map(|s| g.mean(s)).collect(),
-        ice_area_fraction: states.iter().map(|s| model.ice_area_fraction(s)).collect(),
-        ice_edges_deg: states.iter().map(|s| polar_ice_edges(&model, s)).collect(),
+        ice_area_fraction: ice_profiles
+            .iter()
+            .map(|s| model.ice_area_fraction(s))
+            .collect(),
+        ice_edges_deg: ice_profiles
+            .iter()
+            .map(|s| polar_ice_edges(&model, s))
+            .collect(),
+        ice_thickness,
+        ice_profiles,
         toa_annual_mean: toa.iter().sum::<f64>() / steps as f64,
         toa_net: toa,
         annual_mean: annual,
@@ -455,7 +496,11 @@ impl SeasonalProblem {
         }
         self.key = None;
         self.phi.copy_from_slice(u);
-        let sens = if moves_insolation(self.param) {
+        // a central difference of Φ where the exact sensitivity does not
+        // reach: parameters that move the insolation tables, and the
+        // sea-ice model
+        let by_difference = moves_insolation(self.param) || self.sm.has_sea_ice();
+        let sens = if by_difference {
             None
         } else {
             Some((self.param, self.sens.as_mut_slice()))
@@ -463,7 +508,7 @@ impl SeasonalProblem {
         self.sm
             .year_with_jacobian(&mut self.phi, &mut self.m, sens)?;
         self.years_integrated += 1;
-        if moves_insolation(self.param) {
+        if by_difference {
             let p0 = self.sm.param(self.param);
             let h = 1e-6 * p0.abs().max(1.0);
             let mut a = u.to_vec();
@@ -624,6 +669,30 @@ fn near_branch(b: &Branch, u: &[f64], p: f64, width: f64) -> bool {
     })
 }
 
+/// Diagnostics of a cycle's annual-mean profile under the annual-mean
+/// insolation: the temperatures from the annual-mean surface temperature,
+/// the ice (area, edges, state, albedo) from the annual mean of the
+/// profiles that mark it ([`Cycle::ice_profiles`]: with sea ice, where the
+/// annual-mean enthalpy is negative).
+pub fn cycle_diagnostics(annual_model: &Model, c: &Cycle) -> crate::model::climate::Diagnostics {
+    let steps = c.ice_profiles.len().max(1) as f64;
+    let n = c.annual_mean.len();
+    let mut ice = vec![0.0; n];
+    for p in &c.ice_profiles {
+        for i in 0..n {
+            ice[i] += p[i] / steps;
+        }
+    }
+    if ice == c.annual_mean {
+        return diagnose(annual_model, &c.annual_mean);
+    }
+    let t = diagnose(annual_model, &c.annual_mean);
+    let mut d = diagnose(annual_model, &ice);
+    d.global_mean_c = t.global_mean_c;
+    d.energy_imbalance = t.energy_imbalance;
+    d
+}
+
 /// A branch point as reported: its annual-mean profile and the diagnostics
 /// of that profile under the annual-mean insolation.
 fn seasonal_point(
@@ -637,11 +706,13 @@ fn seasonal_point(
 ) -> TracedPoint {
     sm.set_param(param, p);
     annual_model.set_param(param, p);
-    let temperature = match cycle(sm, u) {
-        Ok(c) => c.annual_mean,
-        Err(_) => u.to_vec(),
+    let (temperature, diagnostics) = match cycle(sm, u) {
+        Ok(c) => {
+            let d = cycle_diagnostics(annual_model, &c);
+            (c.annual_mean, d)
+        }
+        Err(_) => (u.to_vec(), diagnose(annual_model, u)),
     };
-    let diagnostics = diagnose(annual_model, &temperature);
     TracedPoint {
         p,
         temperature,

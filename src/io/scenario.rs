@@ -467,6 +467,21 @@ impl Scenario {
                 "`seasons.steps_per_year` = {steps}: need at least 2"
             )));
         }
+        if self.flag("seaice.enabled") {
+            if self.num("seasons.land_fraction") > 0.0 {
+                return Err(SeasonalError::Invalid(format!(
+                    "`seasons.land_fraction` = {}: the sea-ice model is an aquaplanet (need 0)",
+                    fmt_num(self.num("seasons.land_fraction"))
+                )));
+            }
+            let ice = crate::model::seaice::SeaIce {
+                conductivity: self.num("seaice.conductivity"),
+                latent_heat: self.num("seaice.latent_heat"),
+                ocean_heat_flux: self.num("seaice.ocean_heat_flux"),
+                freezing_point: self.num("seaice.freezing_point"),
+            };
+            return SeasonalModel::with_sea_ice(self.model(), steps as usize, ice);
+        }
         SeasonalModel::new(self.model(), steps as usize)
     }
 

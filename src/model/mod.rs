@@ -8,6 +8,7 @@
 pub mod annual;
 pub mod climate;
 pub mod edges;
+pub mod seaice;
 pub mod seasonal;
 pub mod subgrid;
 pub mod topology;

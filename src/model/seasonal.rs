@@ -185,6 +185,9 @@ pub struct SeasonalModel {
     pub step_tolerance: f64,
     /// Newton iteration limit per step (default 30).
     pub max_step_iterations: usize,
+    /// Sea-ice thermodynamics ([`crate::model::seaice`]): with it the
+    /// state is the surface enthalpy E, W yr m-2.
+    pub(crate) sea_ice: Option<crate::model::seaice::SeaIceWork>,
 }
 
 /// Whether changing `p` changes the insolation tables.
@@ -236,7 +239,25 @@ impl SeasonalModel {
             batch: BatchLu::default(),
             step_tolerance: 1e-13,
             max_step_iterations: 30,
+            sea_ice: None,
         })
+    }
+
+    /// [`SeasonalModel::new`] with the sea-ice thermodynamics of Wagner &
+    /// Eisenman (2015) ([`crate::model::seaice`]): the state becomes the
+    /// surface enthalpy E (W yr m-2) and the surface is ice where E < 0
+    /// (the albedo threshold is not used). Needs diffusive transport.
+    pub fn with_sea_ice(
+        mut model: Model,
+        steps_per_year: usize,
+        ice: crate::model::seaice::SeaIce,
+    ) -> Result<SeasonalModel, SeasonalError> {
+        model.planet.albedo.threshold = 0.0;
+        let n = model.len();
+        let mut sm = SeasonalModel::new(model, steps_per_year)?;
+        sm.check_sea_ice(&ice)?;
+        sm.sea_ice = Some(crate::model::seaice::SeaIceWork::new(ice, n));
+        Ok(sm)
     }
 
     /// The underlying model (its insolation is that of the last step taken).
@@ -311,6 +332,9 @@ impl SeasonalModel {
         t: &mut [f64],
         factor_at_end: bool,
     ) -> Result<usize, SeasonalError> {
+        if self.sea_ice.is_some() {
+            return self.step_sea_ice(k, t);
+        }
         let n = self.len();
         let dt = self.dt();
         self.use_step_insolation(k);
@@ -410,6 +434,15 @@ impl SeasonalModel {
         monodromy: &mut [f64],
         mut sensitivity: Option<(Param, &mut [f64])>,
     ) -> Result<(), SeasonalError> {
+        if self.sea_ice.is_some() {
+            if let Some((p, _)) = sensitivity.as_ref() {
+                return Err(SeasonalError::Invalid(format!(
+                    "the exact parameter sensitivity does not cover the sea-ice model ({}; use a central difference of Φ)",
+                    p.key()
+                )));
+            }
+            return self.year_with_jacobian_sea_ice(t, monodromy);
+        }
         let n = self.len();
         let w = n + 1;
         let dt = self.dt();
@@ -466,6 +499,11 @@ impl SeasonalModel {
     /// Global mean of the net top-of-atmosphere flux S(1 - α) - OLR of
     /// profile `t` under the insolation of step k, W m-2 (allocates).
     pub fn toa_net(&mut self, k: usize, t: &[f64]) -> f64 {
+        if let Some(w) = &self.sea_ice {
+            // the flux of the step just taken (albedo of its start state,
+            // longwave of its end state)
+            return w.last_toa;
+        }
         self.use_step_insolation(k);
         let fl = self.model.band_fluxes(t);
         let net: Vec<f64> = fl

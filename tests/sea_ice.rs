@@ -1,0 +1,129 @@
+//! The sea-ice model of Wagner & Eisenman (2015, J. Climate 28, 3998):
+//! its step derivative against finite differences (common practice, no
+//! source), the ice thickness of a steady conduction balance solved by
+//! hand (WE15 section 2b: k (T_m - T_0)/h balances the surface flux, and
+//! in a steady state the ice neither grows nor melts, so the conduction
+//! carries F_b), and the energy budget of a periodic climate (the
+//! enthalpy returns after one year, so the annual global mean of the net
+//! top-of-atmosphere flux plus F_b vanishes: conservation of energy).
+
+use icefold::analysis::periodic::{ShootingOptions, cycle, periodic_from, shoot};
+use icefold::io::scenario::Scenario;
+use icefold::model::seasonal::SeasonalModel;
+
+const SEA_ICE: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/sea-ice.toml");
+
+fn sea_ice(sets: &[&str]) -> SeasonalModel {
+    let sets: Vec<String> = sets.iter().map(|s| s.to_string()).collect();
+    let sc = Scenario::load(Some(std::path::Path::new(SEA_ICE)), &sets).unwrap();
+    sc.seasonal_model().unwrap()
+}
+
+fn max_abs(v: &[f64]) -> f64 {
+    v.iter().fold(0.0f64, |m, x| m.max(x.abs()))
+}
+
+/// The monodromy matrix of the exact step derivative equals central
+/// differences of the annual map (common practice, no source).
+#[test]
+fn monodromy_matches_finite_differences() {
+    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let n = sm.len();
+    // an ice cap poleward of about 60 deg, open water elsewhere
+    let grid = sm.model().grid.clone();
+    let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
+    let u0 = sm.state_from_temperature(&t0);
+    let mut phi = u0.clone();
+    let mut m = vec![0.0; n * n];
+    sm.year_with_jacobian(&mut phi, &mut m, None).unwrap();
+    let mut worst: f64 = 0.0;
+    for j in 0..n {
+        let h = 1e-4 * (1.0 + u0[j].abs());
+        let mut a = u0.clone();
+        let mut b = u0.clone();
+        a[j] += h;
+        b[j] -= h;
+        sm.year(&mut a).unwrap();
+        sm.year(&mut b).unwrap();
+        for i in 0..n {
+            let fd = (a[i] - b[i]) / (2.0 * h);
+            let d = (fd - m[i * n + j]).abs() / (1e-3 + fd.abs());
+            worst = worst.max(d);
+        }
+    }
+    assert!(worst < 1e-4, "relative deviation {worst:e}");
+}
+
+/// Without transport and seasons, an ice-covered band is in steady state
+/// when T_0 = ((1 - α_i) S̄ - A + F + F_b)/B (the OLR A + B T balances the
+/// absorbed flux, F and the heat conducted up, which in a steady state is
+/// F_b) and h = k (T_m - T_0)/F_b. S̄ is the band mean of S0 - S2 x²:
+/// S0 - S2 (x_b³ - x_a³)/(3 (x_b - x_a)). Solved by hand from the model
+/// equations of WE15 section 2b.
+#[test]
+fn steady_ice_thickness_balances_conduction() {
+    let (a, b, f, fb, k, lf) = (193.0, 2.1, -25.0, 4.0, 2.0, 9.5);
+    let mut sm = sea_ice(&[
+        "transport.diffusivity=0",
+        "insolation.s1=0",
+        "radiation.forcing=-25",
+        "grid.bands=20",
+        "seasons.steps_per_year=12",
+    ]);
+    let n = sm.len();
+    let u0 = sm.state_from_temperature(&vec![-20.0; n]);
+    let p = shoot(&mut sm, &u0, &ShootingOptions::default()).unwrap();
+    let grid = sm.model().grid.clone();
+    let (s0, s2) = (1360.0 / 4.0 + 240.0 / 3.0, 240.0);
+    let mut checked = 0;
+    for i in 0..n {
+        let (xa, xb) = (grid.faces[i], grid.faces[i + 1]);
+        let sbar = s0 - s2 * (xb.powi(3) - xa.powi(3)) / (3.0 * (xb - xa));
+        let t0 = ((1.0 - 0.6) * sbar - a + f + fb) / b;
+        assert!(t0 < 0.0, "band {i} would not freeze: {t0}");
+        let h = k * (0.0 - t0) / fb;
+        let got = -p.start[i] / lf;
+        assert!((got - h).abs() < 1e-8 * h, "band {i}: h {got} vs {h} m");
+        checked += 1;
+    }
+    assert_eq!(checked, n);
+    // and the surface temperature the model reports is T_0, all year
+    let c = cycle(&mut sm, &p.start).unwrap();
+    for i in 0..n {
+        let (xa, xb) = (grid.faces[i], grid.faces[i + 1]);
+        let sbar = s0 - s2 * (xb.powi(3) - xa.powi(3)) / (3.0 * (xb - xa));
+        let t0 = ((1.0 - 0.6) * sbar - a + f + fb) / b;
+        for st in &c.states {
+            assert!((st[i] - t0).abs() < 1e-8, "band {i}: T {} vs {t0}", st[i]);
+        }
+        assert!((c.ice_thickness[0][i] - k * (0.0 - t0) / fb).abs() < 1e-8);
+    }
+    assert!(c.ice_area_fraction.iter().all(|f| (*f - 1.0).abs() < 1e-12));
+}
+
+/// A periodic climate of the full model (Table 1, seasons, transport, an
+/// ice edge that moves through the year) closes its energy budget: the
+/// annual global mean of the net top-of-atmosphere flux plus F_b is zero
+/// to 1e-8 W m-2, and the enthalpy returns after one year to the
+/// shooting tolerance (conservation of energy; common practice).
+#[test]
+fn periodic_climate_closes_its_energy_budget() {
+    let mut sm = sea_ice(&["grid.bands=30", "seasons.steps_per_year=36"]);
+    let grid = sm.model().grid.clone();
+    let t0: Vec<f64> = grid.centres.iter().map(|x| 28.0 - 45.0 * x * x).collect();
+    let start = icefold::model::climate::Start {
+        label: "guess".into(),
+        temperature: t0,
+    };
+    let p = periodic_from(&mut sm, &start, &ShootingOptions::default()).unwrap();
+    assert!(p.residual < 1e-10);
+    // some ice and some open water at the start of the year
+    assert!(p.start.iter().any(|e| *e < 0.0) && p.start.iter().any(|e| *e > 0.0));
+    let c = cycle(&mut sm, &p.start).unwrap();
+    let budget = c.toa_annual_mean + 4.0;
+    assert!(budget.abs() < 1e-8, "annual TOA + F_b = {budget:e} W m-2");
+    let mut e = p.start.clone();
+    sm.year(&mut e).unwrap();
+    let drift: Vec<f64> = e.iter().zip(&p.start).map(|(a, b)| a - b).collect();
+    assert!(max_abs(&drift) < 1e-9, "{}", max_abs(&drift));
+}
