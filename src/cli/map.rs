@@ -98,6 +98,12 @@ fn parse_shard(v: &Option<String>) -> Result<Option<(usize, usize)>, CliError> {
 /// Runs `map`.
 pub fn cmd_map(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
+    // never an annual-mean map in place of the seasonal one asked for
+    if sc.flag("seasons.enabled") {
+        return Err(usage(
+            "`seasons.enabled` = true: map draws annual-mean regime maps only; seasonal (periodic-climate) maps are not built yet. Trace the seasonal model slice by slice with `icefold trace`, or set seasons.enabled = false for the annual-mean map".into(),
+        ));
+    }
     let model = sc.model();
     let across_text = args
         .across

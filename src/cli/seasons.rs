@@ -11,7 +11,7 @@
 
 use super::context::{Args, CliError, load, out_dir, provenance, read_start, written_list};
 use crate::analysis::periodic::{
-    Cycle, Periodic, ShootingOptions, cycle, find_periodic, polar_ice_edges,
+    Cycle, Periodic, ShootingOptions, cycle, cycle_diagnostics, find_periodic, polar_ice_edges,
 };
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::netcdf::NcFile;
@@ -49,6 +49,7 @@ pub fn state_meta(sc: &Scenario, sm: &SeasonalModel) -> serde_json::Value {
         "symmetric": g.symmetric,
         "steps_per_year": sm.steps_per_year(),
         "year_fraction": 0.0,
+        "sea_ice": sm.has_sea_ice(),
     })
 }
 
@@ -68,6 +69,19 @@ pub fn read_state(
     sc: &Scenario,
     model: &Model,
     steps_per_year: usize,
+) -> Result<Start, CliError> {
+    read_state_column(path, sc, model, steps_per_year, false)
+}
+
+/// [`read_state`] of a model with or without sea ice: with `sea_ice` the
+/// state is the `enthalpy_w_yr_m2` column (W yr m-2, -1e6 to 1e6) of a
+/// state written by a sea-ice run, returned in `temperature`'s place.
+pub fn read_state_column(
+    path: &Path,
+    sc: &Scenario,
+    model: &Model,
+    steps_per_year: usize,
+    sea_ice: bool,
 ) -> Result<Start, CliError> {
     let bad = |why: String| CliError::Usage(format!("--from {}: {why}", path.display()));
     let meta_path = side_file(path);
@@ -94,6 +108,16 @@ pub fn read_state(
         ("steps_per_year", steps_per_year.into()),
         ("year_fraction", 0.0.into()),
     ];
+    let written_with_ice = meta
+        .get("sea_ice")
+        .and_then(|v| v.as_bool())
+        .unwrap_or(false);
+    if written_with_ice != sea_ice {
+        return Err(bad(format!(
+            "written {} sea ice, but this run has seaice.enabled = {sea_ice}",
+            if written_with_ice { "with" } else { "without" }
+        )));
+    }
     for (k, want) in &expect {
         match meta.get(*k) {
             Some(got) if got == want => {}
@@ -118,10 +142,15 @@ pub fn read_state(
         .iter()
         .position(|c| *c == "latitude_deg")
         .ok_or_else(|| bad("no `latitude_deg` column".into()))?;
+    let (column, lo, hi, unit) = if sea_ice {
+        ("enthalpy_w_yr_m2", -1e6, 1e6, "W yr m-2")
+    } else {
+        ("temperature_c", -273.15, 1000.0, "C")
+    };
     let it = cols
         .iter()
-        .position(|c| *c == "temperature_c")
-        .ok_or_else(|| bad("no `temperature_c` column".into()))?;
+        .position(|c| *c == column)
+        .ok_or_else(|| bad(format!("no `{column}` column")))?;
     let lat = g.latitudes_deg();
     let mut temperature = Vec::with_capacity(g.len());
     for (k, line) in rows.enumerate() {
@@ -143,9 +172,9 @@ pub fn read_state(
                 lat.get(k).map_or("none".to_string(), |v| format!("{v}"))
             )));
         }
-        if !(-273.15..=1000.0).contains(&t) {
+        if !(lo..=hi).contains(&t) {
             return Err(bad(format!(
-                "row {}: temperature {t} C is out of range (-273.15 to 1000)",
+                "row {}: {column} {t} {unit} is out of range ({lo} to {hi})",
                 k + 1
             )));
         }
@@ -185,12 +214,20 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
         )));
     }
     let n = sm.len();
+    let ice = sm.has_sea_ice();
     let start = match from.unwrap_or("warm") {
         "warm" => standard_starts(n, sc.num("solver.warm_start"), 0.0).remove(0),
         "cold" => standard_starts(n, 0.0, sc.num("solver.cold_start")).remove(1),
-        file => read_state(Path::new(file), &sc, sm.model(), steps)?,
+        file => read_state_column(Path::new(file), &sc, sm.model(), steps, ice)?,
     };
-    let mut t = start.temperature.clone();
+    // the model state: temperatures, or with sea ice the enthalpy (a file
+    // holds it already)
+    let mut t = if ice && from.is_some_and(|f| f != "warm" && f != "cold") {
+        start.temperature.clone()
+    } else {
+        sm.state_from_temperature(&start.temperature)
+    };
+    let mut surface = sm.surface_temperature(&t).to_vec();
     let mut table = Table::new(&[
         "time_years",
         "day_of_year",
@@ -207,23 +244,31 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
         let before = t.clone();
         let mut rows = Vec::with_capacity(steps);
         let mut cold: Option<(f64, f64, f64)> = None;
-        let res = sm.year_with(&mut t, &mut |k, model, s| {
-            let (north, south) = polar_ice_edges(model, s);
+        let mut res = Ok(());
+        for k in 0..steps {
+            if let Err(e) = sm.step(k, &mut t, false) {
+                res = Err(e);
+                break;
+            }
+            surface.copy_from_slice(sm.surface_temperature(&t));
+            let ice_field = sm.ice_profile(&t);
+            let model = sm.model();
+            let (north, south) = polar_ice_edges(model, &ice_field);
             let frac = (k + 1) as f64 / steps as f64;
             if cold.is_none()
-                && let Some((tc, lat)) = crate::model::climate::below_absolute_zero(model, s)
+                && let Some((tc, lat)) = crate::model::climate::below_absolute_zero(model, &surface)
             {
                 cold = Some((y as f64 + frac, tc, lat));
             }
             rows.push(vec![
                 Cell::Num(y as f64 + frac),
                 Cell::Num(frac * DAYS_PER_YEAR),
-                Cell::Num(model.grid.mean(s)),
-                Cell::Num(model.ice_area_fraction(s)),
+                Cell::Num(model.grid.mean(&surface)),
+                Cell::Num(model.ice_area_fraction(&ice_field)),
                 Cell::Num(north),
                 Cell::Num(south),
             ]);
-        });
+        }
         if let Err(e) = res {
             failure = Some(format!("in year {}: {e}", y + 1));
             break;
@@ -249,17 +294,30 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
             "the time integration failed {why}; nothing written"
         )));
     }
+    let ice_field = sm.ice_profile(&t);
+    let thickness = sm.ice_thickness(&t);
     let model = sm.model();
-    let mut st = Table::new(&["latitude_deg", "sin_latitude", "temperature_c"]);
+    let mut columns = vec!["latitude_deg", "sin_latitude", "temperature_c"];
+    if ice {
+        columns.extend(["enthalpy_w_yr_m2", "ice_thickness_m"]);
+    }
+    let mut st = Table::new(&columns);
     for (i, lat) in model.grid.latitudes_deg().iter().enumerate() {
-        st.push_row(vec![
+        let mut row = vec![
             Cell::Num(*lat),
             Cell::Num(model.grid.centres[i]),
-            Cell::Num(t[i]),
-        ]);
+            Cell::Num(surface[i]),
+        ];
+        if ice {
+            row.extend([Cell::Num(t[i]), Cell::Num(thickness[i])]);
+        }
+        st.push_row(row);
     }
-    let d = diagnose(&sm.annual_model(), &t);
-    let (north, south) = polar_ice_edges(model, &t);
+    let annual_model = sm.annual_model();
+    let mut d = diagnose(&annual_model, &ice_field);
+    d.global_mean_c = model.grid.mean(&surface);
+    let (north, south) = polar_ice_edges(model, &ice_field);
+    let change_unit = if ice { "W yr m-2" } else { "K" };
     let mut summary = provenance(&sc, args);
     summary.insert("start".into(), start.label.clone().into());
     summary.insert("years".into(), years.into());
@@ -272,7 +330,8 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
             "ice_area_fraction": d.ice_area_fraction,
             "ice_edge_north_deg": north,
             "ice_edge_south_deg": south,
-            "last_year_max_change_k": last_change,
+            "last_year_max_change": last_change,
+            "last_year_max_change_unit": change_unit,
         }),
     );
     let dir = out_dir(args);
@@ -284,7 +343,7 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = out.publish(&dir)?;
     let mut s = format!(
-        "{}: {years} years from {} ({steps} steps per year): global mean {:.3} C, ice fraction {:.4}, last year's largest change {:.3e} K\n",
+        "{}: {years} years from {} ({steps} steps per year): global mean {:.3} C, ice fraction {:.4}, last year's largest change {:.3e} {change_unit}\n",
         sc.name(),
         start.label,
         d.global_mean_c,
@@ -653,7 +712,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
                     Cell::Num(lat[i]),
                     Cell::Num(days[k]),
                     Cell::Num(t),
-                    Cell::Bool(t < threshold),
+                    Cell::Bool(c.ice_profiles[k][i] < threshold),
                 ]);
             }
             annual.push_row(vec![
@@ -677,7 +736,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         for k in 0..steps {
             for i in 0..n {
                 nc_t.push(c.states[k][i]);
-                nc_ice.push(i32::from(c.states[k][i] < threshold));
+                nc_ice.push(i32::from(c.ice_profiles[k][i] < threshold));
             }
         }
         nc_mean.extend_from_slice(&c.annual_mean);
@@ -688,7 +747,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
                 field[j * steps + k] = c.states[k][j];
             }
         }
-        let d = diagnose(&annual_model, &c.annual_mean);
+        let d = cycle_diagnostics(&annual_model, c);
         let fig = plot::field_figure(
             &format!(
                 "Periodic climate {} ({}): {}",
@@ -766,9 +825,13 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         sc.name(),
         neq
     );
-    s += "  #  annual state      mean C   ice min (day)     ice max (day)     stable  |mu|max  residual K\n";
+    s += if sm.has_sea_ice() {
+        "  #  annual state      mean C   ice min (day)     ice max (day)     stable  |mu|max  residual W yr m-2\n"
+    } else {
+        "  #  annual state      mean C   ice min (day)     ice max (day)     stable  |mu|max  residual K\n"
+    };
     for (e, (p, c)) in search.climates.iter().zip(&cycles).enumerate() {
-        let d = diagnose(&annual_model, &c.annual_mean);
+        let d = cycle_diagnostics(&annual_model, c);
         let ((dmin, fmin), (dmax, fmax)) = c.ice_extremes();
         let mu = p.multipliers.first().map_or(0.0, |(r, i)| r.hypot(*i));
         s += &format!(

@@ -238,6 +238,7 @@ impl SeasonalModel {
                 w.surface[i] = ice.freezing_point + e[i].max(0.0) / cap[i];
             }
             let mut err = f64::INFINITY;
+            let mut last_step = f64::INFINITY;
             for it in 0..=max_it {
                 // G(T), G_T
                 w.jac_g.clear();
@@ -275,8 +276,12 @@ impl SeasonalModel {
                     w.rt.lower[i] = -c * w.jac_g.lower[i];
                     w.rt.upper[i] = -c * w.jac_g.upper[i];
                 }
-                if err < tol || it == max_it {
-                    if err >= 1e3 * tol {
+                // converged, or the last correction was at rounding level
+                // (thick ice scales r by G h / k)
+                let scale = 1.0 + w.surface.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+                let done = err < tol || (last_step < 1e-13 * scale && err < 1e-7);
+                if done || it == max_it {
+                    if !done {
                         return Err(SeasonalError::StepFailed {
                             step: k,
                             residual: err,
@@ -305,8 +310,10 @@ impl SeasonalModel {
                     w.dt_vec[i] = -w.r[i];
                 }
                 w.rt.solve(&mut w.dt_vec);
+                last_step = 0.0;
                 for i in 0..n {
                     w.surface[i] += w.dt_vec[i];
+                    last_step = last_step.max(w.dt_vec[i].abs());
                 }
             }
             Err(SeasonalError::StepFailed {
