@@ -54,6 +54,48 @@ fn monodromy_matches_finite_differences() {
     assert!(worst < 1e-4, "relative deviation {worst:e}");
 }
 
+/// The exact parameter sensitivity ∂Φ/∂p of the annual map equals a
+/// central difference in p (common practice, no source).
+#[test]
+fn parameter_sensitivity_matches_finite_differences() {
+    use icefold::model::Param;
+    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let n = sm.len();
+    let grid = sm.model().grid.clone();
+    let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
+    let u0 = sm.state_from_temperature(&t0);
+    for p in [
+        Param::Forcing,
+        Param::OlrA,
+        Param::OlrB,
+        Param::Flux,
+        Param::Diffusivity,
+    ] {
+        let mut phi = u0.clone();
+        let mut m = vec![0.0; n * n];
+        let mut s = vec![0.0; n];
+        sm.year_with_jacobian(&mut phi, &mut m, Some((p, &mut s)))
+            .unwrap();
+        let v0 = sm.param(p);
+        let h = 1e-5 * v0.abs().max(1.0);
+        let (mut a, mut b) = (u0.clone(), u0.clone());
+        sm.set_param(p, v0 + h);
+        sm.year(&mut a).unwrap();
+        sm.set_param(p, v0 - h);
+        sm.year(&mut b).unwrap();
+        sm.set_param(p, v0);
+        for i in 0..n {
+            let fd = (a[i] - b[i]) / (2.0 * h);
+            assert!(
+                (fd - s[i]).abs() < 1e-5 * (1.0 + fd.abs()),
+                "{}: band {i}: {} vs {fd}",
+                p.key(),
+                s[i]
+            );
+        }
+    }
+}
+
 /// Without transport and seasons, an ice-covered band is in steady state
 /// when T_0 = ((1 - α_i) S̄ - A + F + F_b)/B (the OLR A + B T balances the
 /// absorbed flux, F and the heat conducted up, which in a steady state is

@@ -499,7 +499,8 @@ impl SeasonalProblem {
         // a central difference of Φ where the exact sensitivity does not
         // reach: parameters that move the insolation tables, and the
         // sea-ice model
-        let by_difference = moves_insolation(self.param) || self.sm.has_sea_ice();
+        let by_difference = moves_insolation(self.param)
+            || (self.sm.has_sea_ice() && !crate::model::seaice::sea_ice_exact(self.param));
         let sens = if by_difference {
             None
         } else {

@@ -50,6 +50,7 @@
 //! so the annual and global mean of the net top-of-atmosphere flux plus
 //! F_b is zero (the transport sums to zero over the globe).
 
+use super::Param;
 use super::seasonal::{SeasonalError, SeasonalModel};
 use crate::numerics::linalg::Tridiagonal;
 use crate::physics::radiation::Olr;
@@ -91,6 +92,9 @@ pub(crate) struct SeaIceWork {
     /// Scratch n x n for the monodromy update.
     y: Vec<f64>,
     x: Vec<f64>,
+    gp: Vec<f64>,
+    ges: Vec<f64>,
+    sn: Vec<f64>,
     /// Global means of the last step: net top-of-atmosphere flux, W m-2.
     pub(crate) last_toa: f64,
 }
@@ -113,6 +117,9 @@ impl SeaIceWork {
             rt: Tridiagonal::new(n),
             y: Vec::new(),
             x: Vec::new(),
+            gp: vec![0.0; n],
+            ges: vec![0.0; n],
+            sn: vec![0.0; n],
             last_toa: 0.0,
         }
     }
@@ -333,9 +340,19 @@ impl SeasonalModel {
         &mut self,
         e: &mut [f64],
         monodromy: &mut [f64],
+        mut sensitivity: Option<(Param, &mut [f64])>,
     ) -> Result<(), SeasonalError> {
         let n = self.len();
         let dt = self.dt();
+        if let Some((p, s)) = sensitivity.as_mut() {
+            if !sea_ice_exact(*p) {
+                return Err(SeasonalError::Invalid(format!(
+                    "the exact sensitivity of the sea-ice model does not cover {} (use a central difference of Φ)",
+                    p.key()
+                )));
+            }
+            s.fill(0.0);
+        }
         monodromy.fill(0.0);
         for i in 0..n {
             monodromy[i * n + i] = 1.0;
@@ -343,6 +360,52 @@ impl SeasonalModel {
         for k in 0..self.steps_per_year() {
             self.step_sea_ice(k, e)?;
             let mut w = self.sea_ice.take().expect("sea ice");
+            if let Some((p, s)) = sensitivity.as_mut() {
+                // the extra column: x_s = -R_T⁻¹ (r_E s - c g_p),
+                // s += Δt (G_T x_s + G_E s + g_p)
+                let m = self.model();
+                let cap = &m.planet.heat_capacity;
+                for i in 0..n {
+                    w.gp[i] = match p {
+                        Param::Forcing => 1.0,
+                        Param::OlrA => -1.0,
+                        Param::OlrB => -w.surface[i],
+                        Param::Co2 => 5.35 / m.planet.co2_ppm,
+                        Param::Flux => w.absorbed[i] / m.planet.orbit.flux,
+                        _ => 0.0,
+                    };
+                }
+                if *p == Param::Diffusivity {
+                    // the diffusive convergence is linear in D
+                    let unit = Transport::Diffusive { diffusivity: 1.0 };
+                    w.gp.fill(0.0);
+                    unit.add_divergence(&m.grid, &m.conductance, &w.surface, &mut w.gp, None);
+                }
+                // G_E s
+                for i in 0..n {
+                    let mut ge = w.jac_a.diag[i] / cap[i] * s[i];
+                    if i > 0 {
+                        ge += w.jac_a.lower[i] / cap[i - 1] * s[i - 1];
+                    }
+                    if i + 1 < n {
+                        ge += w.jac_a.upper[i] / cap[i + 1] * s[i + 1];
+                    }
+                    w.ges[i] = ge;
+                    w.dt_vec[i] = -(w.rho[i] * s[i] - w.c[i] * (ge + w.gp[i]));
+                }
+                w.rt.solve(&mut w.dt_vec);
+                for i in 0..n {
+                    let mut v = w.jac_g.diag[i] * w.dt_vec[i] + w.ges[i] + w.gp[i];
+                    if i > 0 {
+                        v += w.jac_g.lower[i] * w.dt_vec[i - 1];
+                    }
+                    if i + 1 < n {
+                        v += w.jac_g.upper[i] * w.dt_vec[i + 1];
+                    }
+                    w.sn[i] = s[i] + dt * v;
+                }
+                s.copy_from_slice(&w.sn);
+            }
             let cap = &self.model().planet.heat_capacity;
             w.y.resize(n * n, 0.0);
             w.x.resize(n * n, 0.0);
@@ -383,6 +446,16 @@ impl SeasonalModel {
         }
         Ok(())
     }
+}
+
+/// Whether the sea-ice model's annual map has an exact sensitivity in `p`
+/// (the parameters entering G linearly, away from the albedo: F, A, B,
+/// CO2, D, and the flux through the absorbed part).
+pub fn sea_ice_exact(p: Param) -> bool {
+    matches!(
+        p,
+        Param::Forcing | Param::OlrA | Param::OlrB | Param::Co2 | Param::Flux | Param::Diffusivity
+    )
 }
 
 /// out = G_E B for the tridiagonal ∂(a S)/∂θ `ja` with θ = E/c_w (column j

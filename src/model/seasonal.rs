@@ -435,13 +435,7 @@ impl SeasonalModel {
         mut sensitivity: Option<(Param, &mut [f64])>,
     ) -> Result<(), SeasonalError> {
         if self.sea_ice.is_some() {
-            if let Some((p, _)) = sensitivity.as_ref() {
-                return Err(SeasonalError::Invalid(format!(
-                    "the exact parameter sensitivity does not cover the sea-ice model ({}; use a central difference of Φ)",
-                    p.key()
-                )));
-            }
-            return self.year_with_jacobian_sea_ice(t, monodromy);
+            return self.year_with_jacobian_sea_ice(t, monodromy, sensitivity);
         }
         let n = self.len();
         let w = n + 1;
