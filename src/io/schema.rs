@@ -80,7 +80,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Text { max: 4000 },
         default: "\"\"",
         unit: "",
-        doc: "Free text.",
+        doc: "Free text (no control characters but line breaks and tabs).",
     },
     KeySpec {
         key: "grid.bands",
@@ -317,6 +317,22 @@ pub const SCHEMA: &[KeySpec] = &[
         default: "360",
         unit: "",
         doc: "Implicit time steps per year.",
+    },
+    KeySpec {
+        key: "habitability.min_c",
+        label: "Lowest habitable temperature",
+        kind: num(-150.0, 500.0),
+        default: "0.0",
+        unit: "C",
+        doc: "A surface counts as habitable where min_c <= T <= max_c (liquid water at 1 bar by default; Spiegel, Menou & Scharf 2008); must be below habitability.max_c. A diagnostic only: no law depends on it.",
+    },
+    KeySpec {
+        key: "habitability.max_c",
+        label: "Highest habitable temperature",
+        kind: num(-150.0, 500.0),
+        default: "100.0",
+        unit: "C",
+        doc: "Upper end of the habitable temperatures; must be above habitability.min_c.",
     },
     KeySpec {
         key: "solver.tolerance",

@@ -17,6 +17,7 @@ pub use super::subgrid::RELAXATION_RAMP_BANDS;
 use crate::numerics::grid::Grid;
 use crate::numerics::linalg::Tridiagonal;
 use crate::physics::albedo::{Albedo, AlbedoKind};
+use super::habitability::HabitableRange;
 use crate::physics::insolation::{Insolation, InsolationLaw};
 use crate::physics::orbit::Orbit;
 use crate::physics::radiation::{Olr, OlrLaw, co2_forcing};
@@ -41,6 +42,9 @@ pub struct Planet {
     pub transport: Transport,
     /// Heat capacity per band area, W yr m-2 K-1 (time in years).
     pub heat_capacity: Vec<f64>,
+    /// The temperatures at which the surface counts as habitable (a
+    /// diagnostic: no residual depends on it).
+    pub habitable: HabitableRange,
 }
 
 /// A parameter that continuation and sweeps may vary.
