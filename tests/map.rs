@@ -76,7 +76,7 @@ fn threads_and_shards_give_identical_bytes() {
     // high obliquity (qualitative result of obliquity studies, e.g. Rose,
     // Cronin & Bitz 2017, ApJ 846, 28)
     let csv = std::fs::read_to_string(d1.join("map.csv")).unwrap();
-    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg,residual_wm2\n"));
+    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg,residual_wm2,habitable_fraction\n"));
     let rows: Vec<Vec<&str>> = csv
         .lines()
         .skip(1)
