@@ -420,7 +420,7 @@ fn run_and_periodic_write_their_outputs() {
     assert!(c["ice_extent"]["max"]["day_of_year"].is_number());
     // edge extremes bracket every daily edge in ice_edges.csv
     let edges = std::fs::read_to_string(d3.join("ice_edges.csv")).unwrap();
-    assert!(edges.starts_with("equilibrium,day_of_year,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,ice_edge_south_deg\n"));
+    assert!(edges.starts_with("equilibrium,day_of_year,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,ice_edge_south_deg,habitable_fraction\n"));
     assert_eq!(
         edges.lines().count(),
         1 + 36 * summary["periodic_climates"].as_array().unwrap().len()
