@@ -83,7 +83,8 @@ pub struct MapPoint {
     pub ice_edges_deg: Vec<f64>,
     /// The residual the point reached: max |F|, W m-2 (annual-mean
     /// models).
-    pub residual: f64,    /// Habitable fraction of the surface
+    pub residual: f64,
+    /// Habitable fraction of the surface
     /// ([`crate::model::climate::Diagnostics::habitable_fraction`]).
     pub habitable_fraction: f64,
 }
@@ -116,7 +117,8 @@ pub struct CellClimate {
     /// The northern hemisphere's most poleward ice edge, deg ([`crate::model::climate::ice_edges_deg`]).
     pub ice_edge_north_deg: f64,
     /// The southern hemisphere's most poleward ice edge, deg ([`crate::model::climate::ice_edges_deg`]).
-    pub ice_edge_south_deg: f64,    /// Habitable fraction of the surface
+    pub ice_edge_south_deg: f64,
+    /// Habitable fraction of the surface
     /// ([`crate::model::climate::Diagnostics::habitable_fraction`]).
     pub habitable_fraction: f64,
 }

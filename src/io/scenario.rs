@@ -272,15 +272,15 @@ impl Scenario {
                     .into(),
             });
         }
-        let (lo, hi) = (self.num("habitability.min_c"), self.num("habitability.max_c"));
+        let (lo, hi) = (
+            self.num("habitability.min_c"),
+            self.num("habitability.max_c"),
+        );
         if lo >= hi {
             return Err(ScenarioError::OutOfRange {
                 key: "habitability.min_c".into(),
                 value: fmt_num(lo),
-                allowed: format!(
-                    "a temperature below habitability.max_c = {} C",
-                    fmt_num(hi)
-                ),
+                allowed: format!("a temperature below habitability.max_c = {} C", fmt_num(hi)),
             });
         }
         if self.int("grid.bands") < 4 {
@@ -596,7 +596,10 @@ mod tests {
         let e = Scenario::parse(
             "",
             "t",
-            &["habitability.min_c=50".into(), "habitability.max_c=20".into()],
+            &[
+                "habitability.min_c=50".into(),
+                "habitability.max_c=20".into(),
+            ],
         )
         .unwrap_err()
         .to_string();

@@ -12,12 +12,12 @@
 //! [`super::subgrid`]; the transport divergence in
 //! [`crate::physics::transport`].
 
+use super::habitability::HabitableRange;
 use super::subgrid::HalfBand;
 pub use super::subgrid::RELAXATION_RAMP_BANDS;
 use crate::numerics::grid::Grid;
 use crate::numerics::linalg::Tridiagonal;
 use crate::physics::albedo::{Albedo, AlbedoKind};
-use super::habitability::HabitableRange;
 use crate::physics::insolation::{Insolation, InsolationLaw};
 use crate::physics::orbit::Orbit;
 use crate::physics::radiation::{Olr, OlrLaw, co2_forcing};

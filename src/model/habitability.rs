@@ -70,40 +70,55 @@ impl HabitableRange {
 }
 
 impl Model {
-    /// Habitable length in x of half-band k under the piecewise-linear
-    /// profile of `t` (the segment rule of the sub-grid ice edge).
+    /// Habitable share and length in x of half-band k under the
+    /// piecewise-linear profile of `t` (the segment rule of the sub-grid
+    /// ice edge).
     #[inline]
-    fn habitable_length(&self, k: usize, t: &[f64]) -> f64 {
+    fn habitable_share(&self, k: usize, t: &[f64]) -> (f64, f64) {
         let (a, b) = self.segment(k);
         let (xa, xb) = (self.grid.centres[a], self.grid.centres[b]);
         let h = &self.half[k];
         let slope = (t[b] - t[a]) / (xb - xa);
         let t_lo = t[a] + slope * (h.lo - xa);
         let t_hi = t[a] + slope * (h.hi - xa);
-        self.planet.habitable.linear_share(t_lo, t_hi) * (h.hi - h.lo)
+        (self.planet.habitable.linear_share(t_lo, t_hi), h.hi - h.lo)
     }
 
     /// Habitable fraction H of the planet's surface for profile `t` (°C per
     /// band) and the planet's [`HabitableRange`]: the measure of
     /// {x : T_min <= T(x) <= T_max} over the domain length 1 - x0, with T(x)
     /// piecewise linear between band centres (module docs). In [0, 1];
-    /// allocates nothing.
+    /// exactly 0 when no half-band is habitable and exactly 1 when every
+    /// one is wholly habitable; allocates nothing.
     pub fn habitable_fraction(&self, t: &[f64]) -> f64 {
         let span = self.grid.faces[self.len()] - self.grid.faces[0];
-        let total: f64 = (0..self.half.len())
-            .map(|k| self.habitable_length(k, t))
-            .sum();
-        (total / span).clamp(0.0, 1.0)
+        let (mut total, mut whole) = (0.0, true);
+        for k in 0..self.half.len() {
+            let (share, len) = self.habitable_share(k, t);
+            total += share * len;
+            whole &= share == 1.0;
+        }
+        if whole {
+            1.0
+        } else {
+            (total / span).clamp(0.0, 1.0)
+        }
     }
 
     /// The habitable fraction h_i of each band's area for profile `t`,
     /// written into `out` (one per band): the habitable length of its two
-    /// half-bands over its width. Σ_i w_i h_i is
-    /// [`Model::habitable_fraction`] to rounding.
+    /// half-bands over its width (exactly 0 or 1 when both halves are wholly
+    /// out of or in the range). Σ_i w_i h_i is [`Model::habitable_fraction`]
+    /// to rounding.
     pub fn habitable_band_fractions(&self, t: &[f64], out: &mut [f64]) {
         for (i, o) in out.iter_mut().enumerate().take(self.len()) {
-            let len = self.habitable_length(2 * i, t) + self.habitable_length(2 * i + 1, t);
-            *o = (len / self.grid.width(i)).clamp(0.0, 1.0);
+            let (s0, l0) = self.habitable_share(2 * i, t);
+            let (s1, l1) = self.habitable_share(2 * i + 1, t);
+            *o = if s0 == 1.0 && s1 == 1.0 {
+                1.0
+            } else {
+                ((s0 * l0 + s1 * l1) / self.grid.width(i)).clamp(0.0, 1.0)
+            };
         }
     }
 }
