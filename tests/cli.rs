@@ -13,7 +13,7 @@ fn solve_writes_every_output() {
     );
     let csv = std::fs::read_to_string(d.join("profile.csv")).unwrap();
     assert!(csv.starts_with(
-        "equilibrium,latitude_deg,sin_latitude,temperature_c,albedo,insolation_wm2,absorbed_wm2,olr_wm2,transport_wm2\n"
+        "equilibrium,latitude_deg,sin_latitude,temperature_c,albedo,insolation_wm2,absorbed_wm2,olr_wm2,transport_wm2,habitable_fraction\n"
     ));
     assert_eq!(csv.lines().count(), 1 + 2 * 90);
     assert!(!csv.contains("NaN"));
@@ -127,9 +127,9 @@ fn trace_writes_outputs_and_rejects_bad_ranges() {
     assert_eq!(code, 0, "{stderr}");
     assert!(stdout.contains("polar-caps -> snowball"), "{stdout}");
     let b = std::fs::read_to_string(d.join("branches.csv")).unwrap();
-    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes,residual\n"));
+    assert!(b.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,state,stable,unstable_modes,residual,habitable_fraction\n"));
     let f = std::fs::read_to_string(d.join("folds.csv")).unwrap();
-    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,residual,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_forcing,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
+    assert!(f.starts_with("branch,orbit.flux,global_mean_temperature_c,ice_area_fraction,ice_edge_north_deg,from_state,to_state,jump_time_yr,residual,habitable_fraction,d_orbit_obliquity,d_orbit_eccentricity,d_radiation_co2_ppm,d_radiation_forcing,d_radiation_a,d_radiation_b,d_transport_diffusivity,d_albedo_ice,d_albedo_open,d_albedo_threshold\n"), "{f}");
     for x in ["summary.json", "hysteresis.svg", "hysteresis.png"] {
         assert!(d.join(x).exists());
     }

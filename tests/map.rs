@@ -76,7 +76,7 @@ fn threads_and_shards_give_identical_bytes() {
     // high obliquity (qualitative result of obliquity studies, e.g. Rose,
     // Cronin & Bitz 2017, ApJ 846, 28)
     let csv = std::fs::read_to_string(d1.join("map.csv")).unwrap();
-    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg,residual_wm2\n"));
+    assert!(csv.starts_with("orbit.obliquity,branch,orbit.flux,state,stable,unstable_modes,global_mean_temperature_c,ice_area_fraction,ice_edges_deg,residual_wm2,habitable_fraction\n"));
     let rows: Vec<Vec<&str>> = csv
         .lines()
         .skip(1)
@@ -124,6 +124,7 @@ fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
         "global_mean_temperature",
         "ice_edge_north_deg",
         "ice_edge_south_deg",
+        "habitable_fraction",
     ] {
         assert_eq!(ds.get_var(v).unwrap().dim_names(), cell3, "{v}");
     }
@@ -136,6 +137,11 @@ fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
     assert_eq!(text(t, "units"), "degC");
     assert_eq!(ds.get_var_attr_f64(t, "_FillValue"), Some(&[FILL_F64][..]));
     assert_eq!(text("ice_edge_north_deg", "units"), "degrees_north");
+    assert_eq!(text("habitable_fraction", "units"), "1");
+    assert_eq!(
+        ds.get_var_attr_f64("habitable_fraction", "_FillValue"),
+        Some(&[FILL_F64][..])
+    );
     assert_eq!(
         text("state", "flag_meanings"),
         "ice_free polar_caps equatorial_belt snowball other"
@@ -153,6 +159,7 @@ fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
     let mean = r.read_var_f64(t).unwrap();
     let north = r.read_var_f64("ice_edge_north_deg").unwrap();
     let south = r.read_var_f64("ice_edge_south_deg").unwrap();
+    let habitable = r.read_var_f64("habitable_fraction").unwrap();
     assert_eq!(nclim, *count.iter().max().unwrap() as usize);
     for (j, f) in flux.iter().enumerate() {
         assert!(bnds[2 * j] < *f && *f < bnds[2 * j + 1]);
@@ -175,8 +182,8 @@ fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
                 if k >= n {
                     assert_eq!(state[at], FILL_I32);
                     assert_eq!(
-                        (mean[at], north[at], south[at]),
-                        (FILL_F64, FILL_F64, FILL_F64)
+                        (mean[at], north[at], south[at], habitable[at]),
+                        (FILL_F64, FILL_F64, FILL_F64, FILL_F64)
                     );
                     continue;
                 }
@@ -190,6 +197,10 @@ fn check_map_nc(path: &Path, csv: &[Vec<&str>]) {
                     })
                     .unwrap_or_else(|| panic!("cell ({j}, {i}) climate {k}: not in map.csv"));
                 assert_eq!(row[3], label(state[at]));
+                // the climate's habitable fraction is its map.csv point's, in
+                // [0, 1] (an area fraction; common practice, no source)
+                assert_eq!(row[10].parse::<f64>().unwrap(), habitable[at]);
+                assert!((0.0..=1.0).contains(&habitable[at]));
                 assert_eq!(row[4], "true");
                 if state[at] == 2 {
                     // no northern edge: the cap is in the south only
@@ -465,7 +476,7 @@ fn merge_rejects_hand_edited_shards() {
     let original: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(&file).unwrap()).unwrap();
     type Edit = fn(&mut serde_json::Value);
-    let edits: [(&str, Edit); 8] = [
+    let edits: [(&str, Edit); 10] = [
         ("slices[0].regime[3]", |v| {
             v["slices"][0]["regime"][3] = 64.into()
         }),
@@ -481,6 +492,12 @@ fn merge_rejects_hand_edited_shards() {
         }),
         ("slices[0].points[1]", |v| {
             v["slices"][0]["points"][1]["residual"] = (-1.0).into()
+        }),
+        ("slices[0].points[2].habitable_fraction", |v| {
+            v["slices"][0]["points"][2]["habitable_fraction"] = 1.5.into()
+        }),
+        ("slices[0].climates[5][0].habitable_fraction", |v| {
+            v["slices"][0]["climates"][5][0]["habitable_fraction"] = 1.5.into()
         }),
     ];
     for (field, edit) in edits {

@@ -81,6 +81,33 @@ proptest! {
         }
     }
 
+    /// The habitable fraction is an area fraction, in [0, 1], the
+    /// area-weighted sum of the bands' shares, and it cannot shrink when
+    /// the range widens (the definition; common practice, no source).
+    #[test]
+    fn habitable_fractions_are_area_fractions(sets in scenario(), lo in -60.0f64..60.0, width in 0.5f64..150.0) {
+        let mut sets = sets;
+        sets.push(format!("habitability.min_c={lo}"));
+        sets.push(format!("habitability.max_c={}", lo + width));
+        let Ok(sc) = Scenario::parse(icefold::io::scenario::DEFAULT_SCENARIO, "default", &sets) else {
+            return Ok(());
+        };
+        let model = sc.model();
+        let search = find_equilibria(&model, &standard_starts(model.len(), 30.0, -60.0), &NewtonOptions::default());
+        let mut wider = model.clone();
+        wider.planet.habitable.min_c -= 5.0;
+        wider.planet.habitable.max_c += 5.0;
+        let mut share = vec![0.0; model.len()];
+        for e in &search.equilibria {
+            let h = e.diagnostics.habitable_fraction;
+            prop_assert!((0.0..=1.0).contains(&h), "{h}");
+            model.habitable_band_fractions(&e.temperature, &mut share);
+            let sum: f64 = model.grid.weights.iter().zip(&share).map(|(w, v)| w * v).sum();
+            prop_assert!((sum - h).abs() < 1e-12, "{sum} vs {h}");
+            prop_assert!(wider.habitable_fraction(&e.temperature) >= h - 1e-15);
+        }
+    }
+
     #[test]
     fn traced_branches_are_physical(sets in scenario()) {
         let Ok(sc) = Scenario::parse(icefold::io::scenario::DEFAULT_SCENARIO, "default", &sets) else {

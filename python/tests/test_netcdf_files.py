@@ -105,6 +105,24 @@ def test_seasonal_cycle_time_latitude_temperature(outputs):
         for name in ("temperature", "annual_mean_temperature", "global_mean_temperature"):
             assert ds[name].attrs["standard_name"] == "surface_temperature", name
             assert ds[name].attrs["units"] == "degC", name
+        # the year-mean habitable fraction is the area-weighted sum of each
+        # band's fraction of the year (area and time means commute; common
+        # practice, no source; Spiegel, Menou & Scharf 2008 for the per-band
+        # fraction), and each lies in [0, 1]
+        daily = ds["habitable_fraction"]
+        assert daily.dims == ("equilibrium", "time") and daily.attrs["units"] == "1"
+        year = ds["habitable_year_fraction"]
+        assert year.dims == ("equilibrium", "latitude")
+        assert float(daily.min()) >= 0 and float(daily.max()) <= 1
+        assert float(year.min()) >= 0 and float(year.max()) <= 1
+        np.testing.assert_allclose(
+            (year * weights).sum("latitude"), daily.mean("time"), atol=1e-12
+        )
+        # the seasonal range is the spread of each band's temperature
+        spread = ds["temperature"].max("time") - ds["temperature"].min("time")
+        np.testing.assert_allclose(ds["seasonal_temperature_range"], spread, atol=1e-12)
+        assert ds["seasonal_temperature_range"].attrs["units"] == "K"
+
         # the global mean is the area-weighted mean of the bands
         np.testing.assert_allclose(
             ds["temperature"].weighted(weights).mean("latitude"),
@@ -125,7 +143,13 @@ def test_map_counts_match_the_per_climate_variables(outputs):
         temperature = ds["global_mean_temperature"]
         assert temperature.attrs["standard_name"] == "surface_temperature"
         assert temperature.attrs["units"] == "degC"
-        for name in ("global_mean_temperature", "ice_edge_north_deg", "ice_edge_south_deg", "state"):
+        for name in (
+            "global_mean_temperature",
+            "ice_edge_north_deg",
+            "ice_edge_south_deg",
+            "state",
+            "habitable_fraction",
+        ):
             var = ds[name]
             assert var.dims == ("orbit_flux", "orbit_obliquity", "climate"), name
             present = var.notnull().sum("climate")
@@ -135,6 +159,18 @@ def test_map_counts_match_the_per_climate_variables(outputs):
             edges = ds[name].values
             edges = edges[~np.isnan(edges)]
             assert edges.size and np.all((edges >= -90) & (edges <= 90)), name
+
+        # an area fraction (common practice, no source)
+        habitable = ds["habitable_fraction"]
+        assert habitable.attrs["units"] == "1"
+        h = habitable.values
+        h = h[~np.isnan(h)]
+        assert h.size and np.all((h >= 0) & (h <= 1))
+        # snowballs have no habitable surface (T < 0 C everywhere); the
+        # warmest climate of some cell has most of its surface habitable
+        snow = ds["state"].values == 8
+        assert np.all(habitable.values[snow] == 0)
+        assert float(habitable.isel(climate=0).max()) > 0.5
 
         # each climate's state is one flag; together they make the regime mask
         state = ds["state"]

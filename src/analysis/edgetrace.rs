@@ -648,10 +648,11 @@ pub fn trace_edges(
         let conv = |pr: &mut EdgeProblem, q: &Point| -> TracedPoint {
             pr.set_param(q.p);
             let u = pr.physical(&q.u);
+            let temperature = pr.em.to_bands(&u, &model.grid);
             TracedPoint {
                 p: pr.value(q.p),
-                temperature: pr.em.to_bands(&u, &model.grid),
-                diagnostics: pr.em.diagnostics(&u),
+                diagnostics: pr.em.diagnostics(&u, &temperature),
+                temperature,
                 unstable_modes: q.unstable_modes,
                 residual: q.residual,
             }

@@ -335,13 +335,27 @@ pub struct Cycle {
     /// Annual mean of the global net top-of-atmosphere flux, W m-2
     /// (zero for an exactly periodic backward-Euler cycle: Σ_k C (Tᵏ⁺¹ - Tᵏ) = 0).
     pub toa_annual_mean: f64,
-    /// Largest minus smallest temperature over the year per band, K.
+    /// Largest minus smallest temperature over the year per band, K: the
+    /// seasonal temperature range.
     pub amplitude: Vec<f64>,
     /// Sea-ice thickness per sample and band, m (zero without sea ice).
     pub ice_thickness: Vec<Vec<f64>>,
     /// Per sample the profile whose sign marks the ice (below the model's
     /// albedo threshold: T itself, or E/c_w with threshold 0 with sea ice).
     pub ice_profiles: Vec<Vec<f64>>,
+    /// Instantaneous habitable fraction of the surface per sample,
+    /// H(t_k) = [`Model::habitable_fraction`] of sample k.
+    pub habitable_fraction: Vec<f64>,
+    /// Per band, the fraction of the year it is habitable (the temporal
+    /// habitability of Spiegel, Menou & Scharf 2008, ApJ 681, 1609), over
+    /// the band's area: (1/N) Σ_k h_i(t_k) with h_i the habitable share of
+    /// band i's area at sample k ([`Model::habitable_band_fractions`]; for
+    /// a band wholly in or out of the range at each sample it is the
+    /// fraction of samples in which it is habitable).
+    pub habitable_year_fraction: Vec<f64>,
+    /// Year-mean habitable fraction (1/N) Σ_k H(t_k); equal to Σ_i w_i
+    /// times [`Cycle::habitable_year_fraction`] to rounding.
+    pub habitable_year_mean: f64,
 }
 
 impl Cycle {
@@ -417,12 +431,21 @@ pub fn cycle(sm: &mut SeasonalModel, u: &[f64]) -> Result<Cycle, SeasonalError> 
     let mut annual = vec![0.0; n];
     let mut tmin = vec![f64::INFINITY; n];
     let mut tmax = vec![f64::NEG_INFINITY; n];
+    let mut year_fraction = vec![0.0; n];
+    let mut share = vec![0.0; n];
     for s in &states {
+        model.habitable_band_fractions(s, &mut share);
         for i in 0..n {
             annual[i] += s[i] / steps as f64;
             tmin[i] = tmin[i].min(s[i]);
             tmax[i] = tmax[i].max(s[i]);
+            year_fraction[i] += share[i] / steps as f64;
         }
+    }
+    let habitable: Vec<f64> = states.iter().map(|s| model.habitable_fraction(s)).collect();
+    let habitable_year_mean = (habitable.iter().sum::<f64>() / steps as f64).clamp(0.0, 1.0);
+    for f in &mut year_fraction {
+        *f = f.clamp(0.0, 1.0);
     }
     Ok(Cycle {
         times: (0..steps).map(|k| k as f64 / steps as f64).collect(),
@@ -441,6 +464,9 @@ pub fn cycle(sm: &mut SeasonalModel, u: &[f64]) -> Result<Cycle, SeasonalError> 
         toa_net: toa,
         annual_mean: annual,
         amplitude: tmax.iter().zip(&tmin).map(|(a, b)| a - b).collect(),
+        habitable_fraction: habitable,
+        habitable_year_fraction: year_fraction,
+        habitable_year_mean,
         states,
     })
 }
@@ -695,7 +721,9 @@ pub fn cycle_diagnostics(annual_model: &Model, c: &Cycle) -> crate::model::clima
 }
 
 /// A branch point as reported: its annual-mean profile and the diagnostics
-/// of that profile under the annual-mean insolation.
+/// of that profile under the annual-mean insolation, except the habitable
+/// fraction, which is the year mean of the instantaneous one
+/// ([`Cycle::habitable_year_mean`]).
 fn seasonal_point(
     sm: &mut SeasonalModel,
     annual_model: &mut Model,
@@ -709,7 +737,10 @@ fn seasonal_point(
     annual_model.set_param(param, p);
     let (temperature, diagnostics) = match cycle(sm, u) {
         Ok(c) => {
-            let d = cycle_diagnostics(annual_model, &c);
+            let mut d = cycle_diagnostics(annual_model, &c);
+            // a periodic climate's habitable fraction is the year mean of
+            // the instantaneous one, not that of its annual-mean profile
+            d.habitable_fraction = c.habitable_year_mean;
             (c.annual_mean, d)
         }
         Err(_) => (u.to_vec(), diagnose(annual_model, u)),
@@ -727,7 +758,8 @@ fn seasonal_point(
 /// the generic [`Tracer`] through the annual map: seeds by shooting from
 /// warm and cold starts at `seed_values` parameter values, each distinct
 /// one continued. Points report the annual-mean profile (diagnosed under the
-/// annual-mean insolation), the number of Floquet multipliers outside the
+/// annual-mean insolation; the habitable fraction is the year mean of the
+/// instantaneous one), the number of Floquet multipliers outside the
 /// unit circle, and max |u - Φ(u)| (K) as the residual. Folds carry no jump
 /// (`jump_to` is `None`); bistable windows are where two stable segments
 /// overlap.

@@ -84,6 +84,9 @@ pub struct MapPoint {
     /// The residual the point reached: max |F|, W m-2 (annual-mean
     /// models).
     pub residual: f64,
+    /// Habitable fraction of the surface
+    /// ([`crate::model::climate::Diagnostics::habitable_fraction`]).
+    pub habitable_fraction: f64,
 }
 
 /// One fold of a slice.
@@ -115,6 +118,9 @@ pub struct CellClimate {
     pub ice_edge_north_deg: f64,
     /// The southern hemisphere's most poleward ice edge, deg ([`crate::model::climate::ice_edges_deg`]).
     pub ice_edge_south_deg: f64,
+    /// Habitable fraction of the surface
+    /// ([`crate::model::climate::Diagnostics::habitable_fraction`]).
+    pub habitable_fraction: f64,
 }
 
 /// The compact result of one slice.
@@ -189,6 +195,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
                 ice_area_fraction: d.ice_area_fraction,
                 ice_edges_deg: d.ice_edges_deg.clone(),
                 residual: q.residual,
+                habitable_fraction: d.habitable_fraction,
             });
         }
         for f in &b.folds {
@@ -234,6 +241,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
                         global_mean_c: q.diagnostics.global_mean_c,
                         ice_edge_north_deg: q.diagnostics.ice_edge_north_deg,
                         ice_edge_south_deg: q.diagnostics.ice_edge_south_deg,
+                        habitable_fraction: q.diagnostics.habitable_fraction,
                     });
                 }
             }

@@ -295,6 +295,7 @@ pub(super) fn render(
         "ice_area_fraction",
         "ice_edges_deg",
         "residual_wm2",
+        "habitable_fraction",
     ]);
     for s in slices {
         for q in &s.points {
@@ -310,6 +311,7 @@ pub(super) fn render(
                 Cell::Num(q.ice_area_fraction),
                 Cell::Text(edges.join(";")),
                 Cell::Num(q.residual),
+                Cell::Num(q.habitable_fraction),
             ]);
         }
     }
@@ -448,8 +450,8 @@ pub(super) fn render(
 /// The CF-1.8 NetCDF content of `map.nc`: the slice and cell axes (the
 /// cells with their bounds), per cell the regime mask and the number of
 /// stable climates, and per cell and climate (warmest first, `_FillValue`
-/// past a cell's count) its state, global mean temperature and ice edges
-/// (most poleward per hemisphere). `xs`, `ys` are the axes, `regime`, `count` the per-cell grids
+/// past a cell's count) its state, global mean temperature, ice edges
+/// (most poleward per hemisphere) and habitable fraction. `xs`, `ys` are the axes, `regime`, `count` the per-cell grids
 /// (index `j * xs.len() + i`).
 fn map_netcdf(
     spec: &MapSpec,
@@ -471,6 +473,7 @@ fn map_netcdf(
     let mut mean = vec![FILL_F64; ny * nx * nclim];
     let mut north = vec![FILL_F64; ny * nx * nclim];
     let mut south = vec![FILL_F64; ny * nx * nclim];
+    let mut habitable = vec![FILL_F64; ny * nx * nclim];
     for (i, s) in slices.iter().enumerate() {
         for (j, cell) in s.climates.iter().enumerate().take(ny) {
             for (k, c) in cell.iter().enumerate() {
@@ -479,6 +482,7 @@ fn map_netcdf(
                 mean[at] = c.global_mean_c;
                 north[at] = c.ice_edge_north_deg;
                 south[at] = c.ice_edge_south_deg;
+                habitable[at] = c.habitable_fraction;
             }
         }
     }
@@ -644,6 +648,24 @@ fn map_netcdf(
         nc.var_attr_f64(v, "_FillValue", &[FILL_F64]);
         nc.var_attrs_text(v, &[("long_name", text), ("units", "degrees_north")]);
     }
+    let v = nc.add_var_f64("habitable_fraction", &cell3, habitable)?;
+    nc.var_attr_f64(v, "_FillValue", &[FILL_F64]);
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "habitable fraction of the surface of each stable climate (area with habitability.min_c <= T <= habitability.max_c)",
+            ),
+            ("units", "1"),
+            (
+                "comment",
+                "the temperature profile is taken piecewise linear between band centres; area is uniform in sin(latitude)",
+            ),
+        ],
+    );
+    nc.var_attr_f64(v, "valid_min", &[0.0]);
+    nc.var_attr_f64(v, "valid_max", &[1.0]);
     nc.global_attr_text("Conventions", "CF-1.8");
     nc.global_attr_text("title", &format!("Regime map: {name}"));
     nc.global_attr_text("source", &format!("icefold {VERSION}"));

@@ -316,6 +316,7 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     let annual_model = sm.annual_model();
     let mut d = diagnose(&annual_model, &ice_field);
     d.global_mean_c = model.grid.mean(&surface);
+    d.habitable_fraction = model.habitable_fraction(&surface);
     let (north, south) = polar_ice_edges(model, &ice_field);
     let change_unit = if ice { "W yr m-2" } else { "K" };
     let mut summary = provenance(&sc, args);
@@ -328,6 +329,7 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
             "year_fraction": 0.0,
             "global_mean_temperature_c": d.global_mean_c,
             "ice_area_fraction": d.ice_area_fraction,
+            "habitable_fraction": d.habitable_fraction,
             "ice_edge_north_deg": north,
             "ice_edge_south_deg": south,
             "last_year_max_change": last_change,
@@ -395,6 +397,12 @@ fn climate_json(
         "start": p.label,
         "annual_global_mean_temperature_c": d.global_mean_c,
         "annual_mean_ice_area_fraction": d.ice_area_fraction,
+        "year_mean_habitable_fraction": c.habitable_year_mean,
+        "annual_mean_profile_habitable_fraction": d.habitable_fraction,
+        "habitable_fraction_range": {
+            "min": c.habitable_fraction.iter().copied().fold(1.0f64, f64::min),
+            "max": c.habitable_fraction.iter().copied().fold(0.0f64, f64::max),
+        },
         "annual_mean_state": d.state.label(),
         "stable": p.unstable_modes == 0,
         "unstable_modes": p.unstable_modes,
@@ -580,6 +588,53 @@ fn periodic_netcdf(
             ("units", "1"),
         ],
     );
+    let v = nc.add_var_f64(
+        "habitable_fraction",
+        &["equilibrium", "time"],
+        per_time(&|c| &c.habitable_fraction),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "habitable fraction of the planet's surface (habitability.min_c <= T <= habitability.max_c)",
+            ),
+            ("units", "1"),
+        ],
+    );
+    let v = nc.add_var_f64(
+        "habitable_year_fraction",
+        &["equilibrium", "latitude"],
+        per_time(&|c| &c.habitable_year_fraction),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "fraction of the year the band is habitable, over its area (Spiegel, Menou & Scharf 2008)",
+            ),
+            ("units", "1"),
+            ("cell_methods", "time: mean"),
+        ],
+    );
+    let v = nc.add_var_f64(
+        "seasonal_temperature_range",
+        &["equilibrium", "latitude"],
+        per_time(&|c| &c.amplitude),
+    )?;
+    nc.var_attrs_text(
+        v,
+        &[
+            (
+                "long_name",
+                "largest minus smallest surface temperature over the year",
+            ),
+            ("units", "K"),
+            ("cell_methods", "time: range"),
+        ],
+    );
     for (var, north, text) in [
         (
             "ice_edge_north_deg",
@@ -639,13 +694,19 @@ fn periodic_netcdf(
 /// the seasonal model by shooting from warm and cold starts (and a profile
 /// or state file), each with its Floquet stability. Writes
 /// `seasonal_cycle.csv` (`equilibrium`, `latitude_deg`, `day_of_year`,
-/// `temperature_c`, `ice`), `seasonal_cycle.nc` (CF NetCDF),
+/// `temperature_c`, `ice`), `seasonal_cycle.nc` (CF NetCDF, with the
+/// habitable fraction per day and per band the fraction of the year it is
+/// habitable and the seasonal temperature range),
 /// `seasonal_cycle_K.svg/.png` (latitude-time temperature with the ice
 /// edges), `ice_edges.csv` (`equilibrium`, `day_of_year`,
 /// `global_mean_temperature_c`, `ice_area_fraction`, `ice_edge_north_deg`,
-/// `ice_edge_south_deg`), `annual_mean.csv` and `profiles.svg/.png`
-/// (annual-mean profiles), `summary.json` (with the minimum and maximum ice
-/// extent and the extremes of each ice edge, with their days)
+/// `ice_edge_south_deg`, `habitable_fraction`), `annual_mean.csv`
+/// (`seasonal_amplitude_k` the seasonal temperature range,
+/// `habitable_year_fraction` the fraction of the year the band is
+/// habitable) and `profiles.svg/.png` (annual-mean profiles),
+/// `summary.json` (with the minimum and maximum ice extent and the
+/// extremes of each ice edge, with their days, and the year-mean habitable
+/// fraction)
 /// and `scenario.toml`.
 pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
@@ -688,6 +749,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         "latitude_deg",
         "temperature_c",
         "seasonal_amplitude_k",
+        "habitable_year_fraction",
     ]);
     let mut edges = Table::new(&[
         "equilibrium",
@@ -696,6 +758,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         "ice_area_fraction",
         "ice_edge_north_deg",
         "ice_edge_south_deg",
+        "habitable_fraction",
     ]);
     let neq = cycles.len();
     let mut nc_t = Vec::with_capacity(neq * steps * n);
@@ -720,6 +783,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
                 Cell::Num(lat[i]),
                 Cell::Num(c.annual_mean[i]),
                 Cell::Num(c.amplitude[i]),
+                Cell::Num(c.habitable_year_fraction[i]),
             ]);
         }
         for k in 0..steps {
@@ -731,6 +795,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
                 Cell::Num(c.ice_area_fraction[k]),
                 Cell::Num(north),
                 Cell::Num(south),
+                Cell::Num(c.habitable_fraction[k]),
             ]);
         }
         for k in 0..steps {
@@ -826,16 +891,16 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
         neq
     );
     s += if sm.has_sea_ice() {
-        "  #  annual state      mean C   ice min (day)     ice max (day)     stable  |mu|max  residual W yr m-2\n"
+        "  #  annual state      mean C   ice min (day)     ice max (day)     habitable  stable  |mu|max  residual W yr m-2\n"
     } else {
-        "  #  annual state      mean C   ice min (day)     ice max (day)     stable  |mu|max  residual K\n"
+        "  #  annual state      mean C   ice min (day)     ice max (day)     habitable  stable  |mu|max  residual K\n"
     };
     for (e, (p, c)) in search.climates.iter().zip(&cycles).enumerate() {
         let d = cycle_diagnostics(&annual_model, c);
         let ((dmin, fmin), (dmax, fmax)) = c.ice_extremes();
         let mu = p.multipliers.first().map_or(0.0, |(r, i)| r.hypot(*i));
         s += &format!(
-            "  {:<2} {:<16} {:>7.3}   {:.4} ({:>5.1})   {:.4} ({:>5.1})   {:<6}  {:.4}   {:.1e}\n",
+            "  {:<2} {:<16} {:>7.3}   {:.4} ({:>5.1})   {:.4} ({:>5.1})   {:>9.4}  {:<6}  {:.4}   {:.1e}\n",
             e + 1,
             d.state.label(),
             d.global_mean_c,
@@ -843,6 +908,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             dmin,
             fmax,
             dmax,
+            c.habitable_year_mean,
             if p.unstable_modes == 0 { "yes" } else { "no" },
             mu,
             p.residual

@@ -10,7 +10,7 @@ use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
 /// Format tag of shard files.
-pub(super) const SHARD_FORMAT: &str = "icefold-map-shard-2";
+pub(super) const SHARD_FORMAT: &str = "icefold-map-shard-3";
 
 /// A shard file: everything a merge needs to render the map.
 #[derive(Serialize, Deserialize)]
@@ -192,6 +192,12 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, Cl
                         "is not a climate (unknown state, non-physical temperature or an edge outside -90..90 deg)".into(),
                     ));
                 }
+                if !(0.0..=1.0).contains(&x.habitable_fraction) {
+                    return Err(bad(
+                        at(&format!("climates[{c}][{q}].habitable_fraction")),
+                        format!("= {} is out of range: allowed 0 to 1", x.habitable_fraction),
+                    ));
+                }
                 seen |= x.state;
             }
             if seen != mask {
@@ -202,6 +208,12 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, Cl
             }
         }
         for (q, p) in s.points.iter().enumerate() {
+            if !(0.0..=1.0).contains(&p.habitable_fraction) {
+                return Err(bad(
+                    at(&format!("points[{q}].habitable_fraction")),
+                    format!("= {} is out of range: allowed 0 to 1", p.habitable_fraction),
+                ));
+            }
             let ok = known(&p.state)
                 && in_range(p.value)
                 && p.global_mean_c.is_finite()

@@ -16,6 +16,7 @@ fn equilibrium_json(id: usize, e: &Equilibrium) -> serde_json::Value {
         "global_mean_temperature_c": d.global_mean_c,
         "ice_area_fraction": d.ice_area_fraction,
         "ice_edges_deg": d.ice_edges_deg,
+        "habitable_fraction": d.habitable_fraction,
         "planetary_albedo": d.planetary_albedo,
         "state": d.state.label(),
         "stable": e.unstable_modes == 0,
@@ -60,9 +61,12 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
         "absorbed_wm2",
         "olr_wm2",
         "transport_wm2",
+        "habitable_fraction",
     ]);
     let mut curves = Vec::new();
+    let mut band_habitable = vec![0.0; model.len()];
     for (k, e) in search.equilibria.iter().enumerate() {
+        model.habitable_band_fractions(&e.temperature, &mut band_habitable);
         let fl = model.band_fluxes(&e.temperature);
         let albedo: Vec<f64> = fl
             .insolation
@@ -87,6 +91,7 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
                 Cell::Num(fl.absorbed[i]),
                 Cell::Num(fl.olr[i]),
                 Cell::Num(fl.transport[i]),
+                Cell::Num(band_habitable[i]),
             ]);
         }
         curves.push(plot::ProfileCurve {
@@ -125,16 +130,17 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = out.publish(&dir)?;
     let mut s = format!("{}: {} equilibria\n", sc.name(), search.equilibria.len());
-    s += "  #  state            global mean C  ice fraction  ice edges (deg N)  stable  iterations\n";
+    s += "  #  state            global mean C  ice fraction  habitable  ice edges (deg N)  stable  iterations\n";
     for (k, e) in search.equilibria.iter().enumerate() {
         let d = &e.diagnostics;
         let edges: Vec<String> = d.ice_edges_deg.iter().map(|x| format!("{x:.2}")).collect();
         s += &format!(
-            "  {:<2} {:<16} {:>13.3}  {:>12.4}  {:<17}  {:<6}  {}\n",
+            "  {:<2} {:<16} {:>13.3}  {:>12.4}  {:>9.4}  {:<17}  {:<6}  {}\n",
             k + 1,
             d.state.label(),
             d.global_mean_c,
             d.ice_area_fraction,
+            d.habitable_fraction,
             if edges.is_empty() {
                 "-".into()
             } else {

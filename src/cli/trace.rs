@@ -488,6 +488,7 @@ fn branches_table(h: &Hysteresis) -> Table {
         "stable",
         "unstable_modes",
         "residual",
+        "habitable_fraction",
     ]);
     for b in &h.branches {
         for q in &b.points {
@@ -502,6 +503,7 @@ fn branches_table(h: &Hysteresis) -> Table {
                 Cell::Bool(q.unstable_modes == 0),
                 Cell::Int(q.unstable_modes as i64),
                 Cell::Num(q.residual),
+                Cell::Num(d.habitable_fraction),
             ]);
         }
     }
@@ -551,6 +553,7 @@ fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
         "to_state",
         "jump_time_yr",
         "residual",
+        "habitable_fraction",
     ];
     columns.extend(names.iter().map(String::as_str));
     let mut t = Table::new(&columns);
@@ -574,6 +577,7 @@ fn folds_table(h: &Hysteresis, model: &crate::model::Model) -> Table {
                     .filter(|y| y.is_finite())
                     .map_or(Cell::Text(String::new()), Cell::Num),
                 Cell::Num(f.point.residual),
+                Cell::Num(d.habitable_fraction),
             ];
             // an empty cell where the sensitivity was not computed
             row.extend(
@@ -609,9 +613,11 @@ fn folds_json(h: &Hysteresis, model: &crate::model::Model) -> serde_json::Value 
                 "ice_area_fraction": d.ice_area_fraction,
                 "ice_edge_north_deg": poleward_edge_deg(d),
                 "residual": f.point.residual,
+                "habitable_fraction": d.habitable_fraction,
                 "from_state": f.from_state.label(),
                 "to_state": f.jump_to.as_ref().map_or("none", |j| j.diagnostics.state.label()),
                 "to_global_mean_temperature_c": f.jump_to.as_ref().map(|j| j.diagnostics.global_mean_c),
+                "to_habitable_fraction": f.jump_to.as_ref().map(|j| j.diagnostics.habitable_fraction),
                 "sensitivities": sensitivities,
                 "sensitivities_error": f.sensitivity_error,
                 "to_ice_edge_north_deg": f.jump_to.as_ref().map(|j| poleward_edge_deg(&j.diagnostics)),

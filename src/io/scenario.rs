@@ -6,6 +6,7 @@
 
 pub use super::schema::{KeySpec, Kind, OCEAN_HEAT_PER_METRE, SCHEMA};
 use super::schema::{allowed_text, spec};
+use crate::model::habitability::HabitableRange;
 use crate::model::seasonal::{SeasonalError, SeasonalModel};
 use crate::model::{Model, Planet, Transport};
 use crate::numerics::grid::{Grid, Spacing};
@@ -288,6 +289,17 @@ impl Scenario {
                     .into(),
             });
         }
+        let (lo, hi) = (
+            self.num("habitability.min_c"),
+            self.num("habitability.max_c"),
+        );
+        if lo >= hi {
+            return Err(ScenarioError::OutOfRange {
+                key: "habitability.min_c".into(),
+                value: fmt_num(lo),
+                allowed: format!("a temperature below habitability.max_c = {} C", fmt_num(hi)),
+            });
+        }
         if self.int("grid.bands") < 4 {
             return Err(ScenarioError::OutOfRange {
                 key: "grid.bands".into(),
@@ -450,6 +462,10 @@ impl Scenario {
             forcing_wm2: self.num("radiation.forcing"),
             transport,
             heat_capacity: vec![c],
+            habitable: HabitableRange {
+                min_c: self.num("habitability.min_c"),
+                max_c: self.num("habitability.max_c"),
+            },
         }
     }
 
@@ -615,6 +631,25 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("grid.bands") && e.contains("4 to"), "{e}");
+        // the joint constraint names both fields on one line (our rule)
+        let e = Scenario::parse(
+            "",
+            "t",
+            &[
+                "habitability.min_c=50".into(),
+                "habitability.max_c=20".into(),
+            ],
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("habitability.min_c")
+                && e.contains("habitability.max_c")
+                && e.contains("50")
+                && e.contains("20")
+                && !e.contains('\n'),
+            "{e}"
+        );
         let e = Scenario::parse("", "t", &["orbit.flux=nan".into()])
             .unwrap_err()
             .to_string();

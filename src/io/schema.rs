@@ -360,7 +360,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seaice.latent_heat",
-        label: "Latent heat of fusion L_f",
+        label: "Latent heat of fusion Lf",
         kind: pos(1e3),
         default: "9.5",
         unit: "W yr m-3",
@@ -368,7 +368,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seaice.ocean_heat_flux",
-        label: "Ocean heat flux F_b",
+        label: "Ocean heat flux Fb",
         kind: num(-100.0, 100.0),
         default: "4.0",
         unit: "W m-2",
@@ -376,11 +376,27 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "seaice.freezing_point",
-        label: "Freezing point T_m",
+        label: "Freezing point Tm",
         kind: num(-10.0, 10.0),
         default: "0.0",
         unit: "C",
         doc: "Freezing and melting point of the surface (Wagner & Eisenman 2015: 0 C).",
+    },
+    KeySpec {
+        key: "habitability.min_c",
+        label: "Lowest habitable temperature",
+        kind: num(-150.0, 500.0),
+        default: "0.0",
+        unit: "C",
+        doc: "A surface counts as habitable where min_c <= T <= max_c (liquid water at 1 bar by default; Spiegel, Menou & Scharf 2008); must be below habitability.max_c. A diagnostic only: no law depends on it.",
+    },
+    KeySpec {
+        key: "habitability.max_c",
+        label: "Highest habitable temperature",
+        kind: num(-150.0, 500.0),
+        default: "100.0",
+        unit: "C",
+        doc: "Upper end of the habitable temperatures; must be above habitability.min_c.",
     },
     KeySpec {
         key: "solver.tolerance",

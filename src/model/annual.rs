@@ -12,6 +12,7 @@
 //! [`super::subgrid`]; the transport divergence in
 //! [`crate::physics::transport`].
 
+use super::habitability::HabitableRange;
 use super::subgrid::HalfBand;
 pub use super::subgrid::RELAXATION_RAMP_BANDS;
 use crate::numerics::grid::Grid;
@@ -44,6 +45,9 @@ pub struct Planet {
     pub transport: Transport,
     /// Heat capacity per band area, W yr m-2 K-1 (time in years).
     pub heat_capacity: Vec<f64>,
+    /// The temperatures at which the surface counts as habitable (a
+    /// diagnostic: no residual depends on it).
+    pub habitable: HabitableRange,
 }
 
 /// A parameter that continuation and sweeps may vary.

@@ -58,6 +58,10 @@ pub struct Diagnostics {
     pub state: State,
     /// Global mean of the net flux F, W m-2 (zero at equilibrium).
     pub energy_imbalance: f64,
+    /// Habitable fraction of the surface, [`Model::habitable_fraction`] of
+    /// the profile: the area where the planet's habitable range holds it,
+    /// with the profile piecewise linear between band centres.
+    pub habitable_fraction: f64,
 }
 
 /// Absolute zero, °C.
@@ -101,6 +105,7 @@ pub fn diagnose(model: &Model, t: &[f64]) -> Diagnostics {
         planetary_albedo: if ins > 0.0 { 1.0 - abs / ins } else { 0.0 },
         state,
         energy_imbalance: g.mean(&net),
+        habitable_fraction: model.habitable_fraction(t),
     }
 }
 

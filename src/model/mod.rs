@@ -3,11 +3,13 @@
 //! - [`annual`]: the annual-mean residual F(T; p) and its tridiagonal Jacobian.
 //! - [`subgrid`]: the sub-grid ice edge of the step albedo.
 //! - [`climate`]: diagnostics of a state, state classes, equilibria from starts.
+//! - [`habitability`]: the habitable fraction of the surface.
 //! - [`seasonal`]: the seasonal model, stepped implicitly through the year.
 
 pub mod annual;
 pub mod climate;
 pub mod edges;
+pub mod habitability;
 pub mod seaice;
 pub mod seasonal;
 pub mod subgrid;

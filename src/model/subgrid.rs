@@ -115,7 +115,7 @@ impl Model {
     /// extrapolate from their own side instead, giving a V (or Λ) at the
     /// equator and an ice belt that grows continuously.
     #[inline]
-    fn segment(&self, k: usize) -> (usize, usize) {
+    pub(super) fn segment(&self, k: usize) -> (usize, usize) {
         let n = self.len();
         let i = k / 2;
         if !self.grid.symmetric && n.is_multiple_of(2) && n >= 4 {

@@ -74,8 +74,11 @@ impl EdgeModel {
         out
     }
 
-    /// Diagnostics of u (exact edges, not from the bands).
-    pub fn diagnostics(&mut self, u: &[f64]) -> Diagnostics {
+    /// Diagnostics of u (exact edges, not from the bands), except the
+    /// habitable fraction, which is that of `bands`: the profile the point
+    /// reports on the scenario's bands ([`EdgeModel::to_bands`] of u), so
+    /// that it can be recomputed from the reported temperatures.
+    pub fn diagnostics(&mut self, u: &[f64], bands: &[f64]) -> Diagnostics {
         let n = self.n;
         let k = self.edge_count();
         let mut f = vec![0.0; n + k];
@@ -99,6 +102,7 @@ impl EdgeModel {
             planetary_albedo: if ins > 0.0 { 1.0 - abs / ins } else { 0.0 },
             state,
             energy_imbalance: f[..n].iter().sum::<f64>() / n as f64,
+            habitable_fraction: self.model.habitable_fraction(bands),
         }
     }
 }
