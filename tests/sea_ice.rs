@@ -169,3 +169,227 @@ fn periodic_climate_closes_its_energy_budget() {
     let drift: Vec<f64> = e.iter().zip(&p.start).map(|(a, b)| a - b).collect();
     assert!(max_abs(&drift) < 1e-9, "{}", max_abs(&drift));
 }
+
+/// The largest difference of ice edge (deg) between two stable climates
+/// that are not snowballs and coexist at one forcing, over forcings above
+/// `above` (stable segments interpolated linearly in the forcing, sampled
+/// every 0.01 W m-2).
+fn coexisting_edge_gap(h: &icefold::analysis::branches::Hysteresis, above: f64) -> f64 {
+    use icefold::analysis::branches::poleward_edge_deg;
+    use icefold::model::climate::State;
+    let mut segs = Vec::new();
+    for b in &h.branches {
+        for w in b.points.windows(2) {
+            let ok = |q: &icefold::analysis::branches::TracedPoint| {
+                q.unstable_modes == 0 && q.diagnostics.state != State::Snowball
+            };
+            if ok(&w[0]) && ok(&w[1]) && w[0].p != w[1].p {
+                segs.push((
+                    w[0].p,
+                    w[1].p,
+                    poleward_edge_deg(&w[0].diagnostics),
+                    poleward_edge_deg(&w[1].diagnostics),
+                ));
+            }
+        }
+    }
+    let (lo, hi) = h.range;
+    let mut worst: f64 = 0.0;
+    let mut f = above.max(lo);
+    while f <= hi {
+        let edges: Vec<f64> = segs
+            .iter()
+            .filter(|(a, b, _, _)| a.min(*b) <= f && f <= a.max(*b))
+            .map(|(a, b, ea, eb)| ea + (f - a) / (b - a) * (eb - ea))
+            .collect();
+        if let (Some(mx), Some(mn)) = (
+            edges.iter().copied().reduce(f64::max),
+            edges.iter().copied().reduce(f64::min),
+        ) {
+            worst = worst.max(mx - mn);
+        }
+        f += 0.01;
+    }
+    worst
+}
+
+/// Wagner & Eisenman (2015): with their Table 1 parameters the annual-mean
+/// diffusive model has the small-ice-cap instability (a small stable cap
+/// coexists with an ice-free planet, here edges 26 deg apart), while the
+/// seasonal model with sea-ice thermodynamics has none: above its
+/// snowball transition (2 W m-2 of margin) no two stable climates with
+/// different ice edges coexist (within 3 deg: the coarse grid's kinks make
+/// small wiggles), so the ice edge moves without jumps as F varies until
+/// the snowball transition (their section 3 and Fig. 4, qualitatively).
+#[test]
+fn sea_ice_removes_the_small_ice_cap_instability() {
+    use icefold::analysis::branches::{TraceOptions, trace_all};
+    use icefold::analysis::periodic::{SeasonalTraceOptions, trace_seasonal};
+    use icefold::model::Param;
+    let sets = |extra: &[&str]| -> Vec<String> { extra.iter().map(|s| s.to_string()).collect() };
+    let path = std::path::Path::new(SEA_ICE);
+    // (a) the annual-mean model of the same planet (symmetric grid)
+    let a = Scenario::load(
+        Some(path),
+        &sets(&[
+            "seasons.enabled=false",
+            "seaice.enabled=false",
+            "grid.symmetric=true",
+            "grid.bands=30",
+        ]),
+    )
+    .unwrap();
+    let opts = TraceOptions {
+        integrate_jumps: false,
+        sensitivities: false,
+        ..TraceOptions::default()
+    };
+    let ha = trace_all(
+        &a.model(),
+        Param::Forcing,
+        -30.0,
+        15.0,
+        30.0,
+        -60.0,
+        &opts,
+        &mut |_| {},
+    );
+    let snow_a = ha
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .map(|f| f.point.p)
+        .fold(f64::INFINITY, f64::min);
+    let gap_a = coexisting_edge_gap(&ha, snow_a + 2.0);
+    assert!(
+        gap_a > 15.0,
+        "(a) has the small-ice-cap instability: gap {gap_a}"
+    );
+    // (c) seasonal with sea ice
+    let c = Scenario::load(
+        Some(path),
+        &sets(&["grid.bands=24", "seasons.steps_per_year=24"]),
+    )
+    .unwrap();
+    let sm = c.seasonal_model().unwrap();
+    let hc = trace_seasonal(
+        &sm,
+        Param::Forcing,
+        -25.0,
+        10.0,
+        30.0,
+        -60.0,
+        &SeasonalTraceOptions::default(),
+        &mut |_| {},
+    );
+    let snow_c = hc
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .map(|f| f.point.p)
+        .fold(f64::INFINITY, f64::min);
+    assert!(
+        snow_c > -25.0 && snow_c < 0.0,
+        "snowball transition at {snow_c}"
+    );
+    let gap_c = coexisting_edge_gap(&hc, snow_c + 2.0);
+    assert!(gap_c < 3.0, "(c) coexisting stable edges {gap_c} deg apart");
+    // and (c) does have partial ice cover over that range: stable caps
+    let caps = hc
+        .branches
+        .iter()
+        .flat_map(|b| b.points.iter())
+        .filter(|q| {
+            q.unstable_modes == 0
+                && q.diagnostics.ice_area_fraction > 0.05
+                && q.diagnostics.ice_area_fraction < 0.9
+        })
+        .count();
+    assert!(caps > 10, "{caps} stable partly ice-covered climates");
+}
+
+/// `trace --hierarchy` writes the three models side by side: every model
+/// in the table, the figure, and per model the folds that its own trace
+/// finds (the annual-mean one against an independent library trace).
+#[test]
+fn hierarchy_traces_three_models_side_by_side() {
+    #[path = "common/mod.rs"]
+    mod common;
+    let dir = common::temp_dir("hierarchy");
+    let out = dir.join("h");
+    let (code, stdout, err) = common::icefold(&[
+        "trace",
+        SEA_ICE,
+        "--hierarchy",
+        "--set",
+        "grid.bands=16",
+        "--set",
+        "seasons.steps_per_year=24",
+        "--vary",
+        "radiation.forcing",
+        "--from",
+        "-25",
+        "--to",
+        "10",
+        "--quiet",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    for f in [
+        "hierarchy.csv",
+        "hierarchy_folds.csv",
+        "summary.json",
+        "hierarchy.svg",
+        "hierarchy.png",
+        "scenario.toml",
+    ] {
+        assert!(out.join(f).exists(), "{f}");
+    }
+    let table = std::fs::read_to_string(out.join("hierarchy.csv")).unwrap();
+    for m in ["annual-mean", "seasonal", "seasonal-sea-ice"] {
+        assert!(
+            table.lines().any(|l| l.starts_with(&format!("{m},"))),
+            "{m}"
+        );
+        assert!(stdout.contains(m), "{stdout}");
+    }
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let folds_a: Vec<f64> = summary["models"][0]["folds"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["value"].as_f64().unwrap())
+        .collect();
+    // the same annual-mean trace through the library
+    use icefold::analysis::branches::{TraceOptions, trace_all};
+    let sets: Vec<String> = [
+        "grid.bands=16",
+        "seasons.steps_per_year=24",
+        "seasons.enabled=false",
+        "seaice.enabled=false",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    let sc = Scenario::load(Some(std::path::Path::new(SEA_ICE)), &sets).unwrap();
+    let h = trace_all(
+        &sc.model(),
+        icefold::model::Param::Forcing,
+        -25.0,
+        10.0,
+        30.0,
+        -60.0,
+        &TraceOptions::default(),
+        &mut |_| {},
+    );
+    let mut lib: Vec<f64> = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter().map(|f| f.point.p))
+        .collect();
+    lib.sort_by(f64::total_cmp);
+    assert_eq!(folds_a, lib);
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -138,6 +138,10 @@ pub struct TraceCmd {
     #[command(flatten)]
     #[allow(missing_docs)]
     pub range: RangeOpts,
+    /// Trace the same planet in the model hierarchy: annual mean, seasonal,
+    /// seasonal with sea ice; writes one overlay figure and table.
+    #[arg(long)]
+    pub hierarchy: bool,
     #[command(flatten)]
     #[allow(missing_docs)]
     pub output: OutputOpts,
@@ -256,6 +260,7 @@ impl Cli {
                 vary: c.range.vary,
                 from: c.range.from,
                 to: c.range.to,
+                hierarchy: c.hierarchy,
                 ..base("trace", c.scenario, c.output, line)
             },
             Command::Map(c) => Args {

@@ -73,6 +73,8 @@ pub struct Args {
     pub years: Option<String>,
     /// `--fold-curves` (map).
     pub fold_curves: bool,
+    /// `--hierarchy` (trace).
+    pub hierarchy: bool,
     /// Further positional arguments (merge: shard directories).
     pub rest: Vec<PathBuf>,
     /// The command line as given (provenance).

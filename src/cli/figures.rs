@@ -33,5 +33,25 @@ pub fn cmd_figures(args: &Args) -> Result<String, CliError> {
         };
         s += &run(&a)?;
     }
+    // the model hierarchy of the sea-ice scenario (about 2.5 minutes)
+    let sea_ice = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("scenarios/sea-ice.toml");
+    let out = dir.join("hierarchy");
+    let a = Args {
+        command: "trace".into(),
+        scenario: Some(sea_ice.clone()),
+        out: Some(out.clone()),
+        quiet: args.quiet,
+        hierarchy: true,
+        vary: Some("radiation.forcing".into()),
+        from: Some("-30".into()),
+        to: Some("15".into()),
+        line: format!(
+            "icefold trace {} --hierarchy --vary radiation.forcing --from -30 --to 15 --out {}",
+            sea_ice.display(),
+            out.display()
+        ),
+        ..Args::default()
+    };
+    s += &super::trace::cmd_trace(&a)?;
     Ok(s)
 }

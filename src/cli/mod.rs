@@ -6,6 +6,7 @@
 pub mod args;
 pub mod context;
 pub mod figures;
+pub mod hierarchy;
 pub mod map;
 pub mod progress;
 pub mod seasons;

@@ -144,6 +144,9 @@ const MAX_EXTENSIONS: usize = 6;
 
 /// Runs `trace`.
 pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
+    if args.hierarchy {
+        return super::hierarchy::cmd_hierarchy(args);
+    }
     let sc = load(args)?;
     let model = sc.model();
     let (param, from, to) = parse_range(args, &model)?;

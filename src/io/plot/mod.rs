@@ -32,6 +32,7 @@ mod chart;
 mod check;
 mod colour;
 mod field;
+mod hierarchy;
 mod hysteresis;
 mod legend;
 mod placement;
@@ -45,6 +46,7 @@ use crate::io::export::ExportError;
 
 pub use colour::sequential_colour;
 pub use field::field_figure;
+pub use hierarchy::{ModelCurves, hierarchy_figure};
 pub use hysteresis::hysteresis_figure;
 pub use profile::profile_figure;
 pub use regime::regime_figure;
