@@ -14,7 +14,7 @@ mod common;
 use common::Summary;
 use criterion::{BenchmarkId, Criterion};
 use icefold::analysis::periodic::{
-    Periodic, SeasonalTraceOptions, ShootingOptions, shoot, spin_up, trace_seasonal,
+    Periodic, SeasonalTraceOptions, ShootingOptions, periodic_from, shoot, spin_up, trace_seasonal,
 };
 use icefold::io::scenario::Scenario;
 use icefold::model::Param;
@@ -166,9 +166,62 @@ fn trace(c: &mut Criterion, s: &Summary) {
     }
 }
 
+/// The sea-ice model (`scenarios/sea-ice.toml`, 60 bands, 72 steps per
+/// year): the periodic climate by shooting from the annual-mean
+/// equilibrium of the same planet, against spin-up from there until the
+/// year-over-year change is below the shooting tolerance (1e-10 W yr m-2),
+/// i.e. the same tolerance.
+fn sea_ice(c: &mut Criterion, s: &Summary) {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/sea-ice.toml");
+    let sc = Scenario::load(Some(std::path::Path::new(path)), &[]).unwrap();
+    let mut sm = sc.seasonal_model().unwrap();
+    let n = sm.len();
+    let am = sc.model();
+    let starts = icefold::model::climate::standard_starts(n, 30.0, -60.0);
+    let search = icefold::model::climate::find_equilibria(&am, &starts, &NewtonOptions::default());
+    let warm = search
+        .equilibria
+        .first()
+        .expect("an annual-mean equilibrium");
+    let from = icefold::model::climate::Start {
+        label: "annual-mean equilibrium".into(),
+        temperature: warm.temperature.clone(),
+    };
+    let start = sm.state_from_temperature(&warm.temperature);
+    let opts = ShootingOptions::default();
+    let mut g = c.benchmark_group("sea_ice_periodic");
+    g.sample_size(10);
+    let mut shot: Option<Periodic> = None;
+    // shooting as `periodic` does it: Newton, and after short spin-ups
+    // when Newton fails from far away (their years are counted)
+    g.bench_function("shooting", |b| {
+        b.iter(|| shot = Some(periodic_from(&mut sm, &from, &opts).unwrap()))
+    });
+    let mut years = 0;
+    g.bench_function("spin_up", |b| {
+        b.iter(|| {
+            let mut u = start.clone();
+            years = spin_up(&mut sm, &mut u, opts.tolerance, 1_000_000).unwrap();
+        })
+    });
+    g.finish();
+    s.ratio(
+        "sea ice: shooting vs spin-up to 1e-10 W yr m-2 per year",
+        &["sea_ice_periodic", "shooting"],
+        &["sea_ice_periodic", "spin_up"],
+    );
+    if let Some(p) = &shot {
+        s.note(format!(
+            "  shooting: {} Newton iterations after {} years of spin-up, residual {:.1e} W yr m-2, {} unstable modes; spin-up alone: {years} years",
+            p.iterations, p.spun_up_years, p.residual, p.unstable_modes
+        ));
+    }
+}
+
 fn main() {
     let s = Summary::new("seasons");
     let mut c = Criterion::default().without_plots().configure_from_args();
+    sea_ice(&mut c, &s);
     periodic(&mut c, &s);
     year(&mut c, &s);
     trace(&mut c, &s);

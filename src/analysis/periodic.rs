@@ -95,7 +95,10 @@ pub fn shoot(
     // Jacobian right away, so no year is integrated twice.
     phi.copy_from_slice(&u);
     sm.year_with_jacobian(&mut phi, &mut m, None)?;
+    let mut history: Vec<f64> = Vec::with_capacity(opts.max_iterations + 1);
+    let (mut made, mut why) = (0, "");
     for iter in 0..=opts.max_iterations {
+        made = iter;
         for i in 0..n {
             g[i] = u[i] - phi[i];
         }
@@ -117,6 +120,13 @@ pub fn shoot(
         if iter == opts.max_iterations || !res.is_finite() {
             break;
         }
+        // a stall: six iterations that did not halve the residual (Newton
+        // is far from a fixed point of a kinked map; the caller spins up)
+        history.push(res);
+        if iter >= 6 && res > 0.5 * history[iter - 6] {
+            why = " (stalled: six Newton iterations did not halve the residual)";
+            break;
+        }
         let a = faer::Mat::<f64>::from_fn(n, n, |r, c| f64::from(u8::from(r == c)) - m[r * n + c]);
         let lu = a.partial_piv_lu();
         let mut rhs = faer::Mat::<f64>::from_fn(n, 1, |i, _| -g[i]);
@@ -126,11 +136,9 @@ pub fn shoot(
         if !big.is_finite() {
             break;
         }
-        let mut lambda = if big > opts.max_step {
-            opts.max_step / big
-        } else {
-            1.0
-        };
+        // the cap is in K: in enthalpy units with sea ice
+        let cap = opts.max_step * sm.state_per_kelvin();
+        let mut lambda = if big > cap { cap / big } else { 1.0 };
         let g0: f64 = g.iter().map(|x| x * x).sum();
         let mut accepted = false;
         for attempt in 0..12 {
@@ -161,14 +169,15 @@ pub fn shoot(
             lambda *= 0.5;
         }
         if !accepted {
+            why = " (stalled: no step along the Newton direction reduced the residual)";
             break;
         }
         u.copy_from_slice(&trial);
     }
     Err(SeasonalError::NotPeriodic {
         residual: res,
-        iterations: opts.max_iterations,
-        note: String::new(),
+        iterations: made,
+        note: why.into(),
     })
 }
 
@@ -202,9 +211,10 @@ pub fn spin_up(
     })
 }
 
-/// The periodic climate reached from `start`: shooting first; only if
-/// Newton fails, `spin_up_years` of time stepping and shooting again (the
-/// result records the years). Fails with the residual when neither works.
+/// The periodic climate reached from `start`: shooting first; if Newton
+/// fails, time stepping in growing chunks (10, 20, 40, 80, then the rest
+/// of `spin_up_years`), shooting again after each (the result records the
+/// years stepped). Fails with the residual when none works.
 pub fn periodic_from(
     sm: &mut SeasonalModel,
     start: &Start,
@@ -212,35 +222,44 @@ pub fn periodic_from(
 ) -> Result<Periodic, SeasonalError> {
     // the start is a temperature profile; with sea ice the state is E
     let u0 = sm.state_from_temperature(&start.temperature);
-    match shoot(sm, &u0, opts) {
+    let first = match shoot(sm, &u0, opts) {
         Ok(mut p) => {
             p.label.clone_from(&start.label);
-            Ok(p)
+            return Ok(p);
         }
-        Err(first) => {
-            let mut t = u0;
-            let years = opts.spin_up_years;
-            let _ = spin_up(sm, &mut t, 1e-4, years);
-            match shoot(sm, &t, opts) {
-                Ok(mut p) => {
-                    p.spun_up_years = years;
-                    p.label.clone_from(&start.label);
-                    Ok(p)
-                }
-                Err(SeasonalError::NotPeriodic {
-                    residual,
-                    iterations,
-                    ..
-                }) => Err(SeasonalError::NotPeriodic {
-                    residual,
-                    iterations,
-                    note: format!(
-                        " (shooting from the start failed: {first}; also after {years} years of spin-up)"
-                    ),
-                }),
-                Err(e) => Err(e),
+        Err(e) => e,
+    };
+    let mut t = u0;
+    let mut years = 0;
+    let mut last = first.clone();
+    let mut chunk = 10;
+    while years < opts.spin_up_years {
+        let k = chunk.min(opts.spin_up_years - years);
+        years += spin_up(sm, &mut t, 1e-4, k).unwrap_or(k);
+        chunk *= 2;
+        match shoot(sm, &t, opts) {
+            Ok(mut p) => {
+                p.spun_up_years = years;
+                p.label.clone_from(&start.label);
+                return Ok(p);
             }
+            Err(e @ SeasonalError::NotPeriodic { .. }) => last = e,
+            Err(e) => return Err(e),
         }
+    }
+    match last {
+        SeasonalError::NotPeriodic {
+            residual,
+            iterations,
+            ..
+        } => Err(SeasonalError::NotPeriodic {
+            residual,
+            iterations,
+            note: format!(
+                " (shooting from the start failed: {first}; also after {years} years of spin-up)"
+            ),
+        }),
+        e => Err(e),
     }
 }
 

@@ -164,6 +164,21 @@ impl SeasonalModel {
         self.sea_ice.as_ref().map(|w| w.ice)
     }
 
+    /// K of temperature per unit of the state: 1 without sea ice, the
+    /// largest heat capacity c_w with it (E = c_w T); scales step limits
+    /// given in K.
+    pub fn state_per_kelvin(&self) -> f64 {
+        match &self.sea_ice {
+            None => 1.0,
+            Some(_) => self
+                .model()
+                .planet
+                .heat_capacity
+                .iter()
+                .fold(1.0f64, |m, c| m.max(*c)),
+        }
+    }
+
     /// The state of a temperature profile `t` (°C): `t` itself without sea
     /// ice; with it, E = c_w (T - T_m) (below the freezing point: ice of
     /// thickness c_w (T_m - T)/L_f).
