@@ -362,13 +362,16 @@ fn hierarchy_traces_three_models_side_by_side() {
         .iter()
         .map(|f| f["value"].as_f64().unwrap())
         .collect();
-    // the same annual-mean trace through the library
+    // the same annual-mean trace through the library: the planet with the
+    // sea-ice model's ocean heat flux (4 W m-2) as forcing, traced at
+    // F + 4 and reported at F
     use icefold::analysis::branches::{TraceOptions, trace_all};
     let sets: Vec<String> = [
         "grid.bands=16",
         "seasons.steps_per_year=24",
         "seasons.enabled=false",
         "seaice.enabled=false",
+        "radiation.forcing=4",
     ]
     .iter()
     .map(|s| s.to_string())
@@ -377,8 +380,8 @@ fn hierarchy_traces_three_models_side_by_side() {
     let h = trace_all(
         &sc.model(),
         icefold::model::Param::Forcing,
-        -25.0,
-        10.0,
+        -21.0,
+        14.0,
         30.0,
         -60.0,
         &TraceOptions::default(),
@@ -387,9 +390,64 @@ fn hierarchy_traces_three_models_side_by_side() {
     let mut lib: Vec<f64> = h
         .branches
         .iter()
-        .flat_map(|b| b.folds.iter().map(|f| f.point.p))
+        .flat_map(|b| b.folds.iter().map(|f| f.point.p - 4.0))
         .collect();
     lib.sort_by(f64::total_cmp);
-    assert_eq!(folds_a, lib);
+    assert_eq!(folds_a.len(), lib.len(), "{folds_a:?} vs {lib:?}");
+    for (x, y) in folds_a.iter().zip(&lib) {
+        assert!((x - y).abs() < 1e-12, "{x} vs {y}");
+    }
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// Where there is no ice, the sea-ice model is the seasonal model: the
+/// same planet warm enough to stay ice-free all year gives the same
+/// periodic climate with and without sea-ice thermodynamics (E = c_w T
+/// over open water, WE15 section 2b), computed by two separate codes
+/// (the enthalpy step of src/model/seaice.rs and the temperature step of
+/// src/model/seasonal.rs), to the shooting tolerance.
+#[test]
+fn without_ice_the_sea_ice_model_is_the_seasonal_model() {
+    use icefold::model::climate::Start;
+    let warm = [
+        "grid.bands=20",
+        "seasons.steps_per_year=24",
+        "radiation.forcing=25",
+    ];
+    let mut c = sea_ice(&warm);
+    // the seasonal model has no heat flux from below: F_b = 4 W m-2 enters
+    // it as forcing
+    let with_off = [
+        "grid.bands=20",
+        "seasons.steps_per_year=24",
+        "radiation.forcing=29",
+        "seaice.enabled=false",
+    ];
+    let mut b = sea_ice(&with_off);
+    assert!(c.has_sea_ice() && !b.has_sea_ice());
+    let start = Start {
+        label: "warm".into(),
+        temperature: vec![30.0; c.len()],
+    };
+    let opts = ShootingOptions::default();
+    let pc = periodic_from(&mut c, &start, &opts).unwrap();
+    let pb = periodic_from(&mut b, &start, &opts).unwrap();
+    let cc = cycle(&mut c, &pc.start).unwrap();
+    let cb = cycle(&mut b, &pb.start).unwrap();
+    assert!(
+        cc.ice_area_fraction.iter().all(|f| *f == 0.0),
+        "ice-free all year"
+    );
+    let mut worst: f64 = 0.0;
+    for (sc, sb) in cc.states.iter().zip(&cb.states) {
+        for (x, y) in sc.iter().zip(sb) {
+            worst = worst.max((x - y).abs());
+        }
+    }
+    assert!(worst < 1e-9, "surface temperatures differ by {worst:e} K");
+    // the states themselves: E = c_w T
+    let cw = c.model().planet.heat_capacity[0];
+    for (e, t) in pc.start.iter().zip(&pb.start) {
+        assert!((e - cw * t).abs() < 1e-8 * cw);
+    }
 }

@@ -32,18 +32,30 @@ const MODELS: [(&str, &str, [&str; 2]); 3] = [
     ),
 ];
 
-/// Runs `trace --hierarchy`: writes `hierarchy.csv` (every traced point,
+/// Runs `trace --hierarchy`. The three models are the same planet: the
+/// ocean heat flux F_b (`seaice.ocean_heat_flux`), which the sea-ice model
+/// adds under its mixed layer everywhere, is added to the forcing of (a)
+/// and (b) (a trace in `radiation.forcing` is reported on the axis of the
+/// scenario's F). Writes `hierarchy.csv` (every traced point,
 /// with its model), `hierarchy_folds.csv`, `summary.json` (per model its
 /// folds, bistable windows and notes), `hierarchy.svg`/`.png` (the three
 /// models' branches overlaid) and `scenario.toml`.
 pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
     let base = sc.to_toml();
+    // the same planet in every model: the ocean heat flux F_b that the
+    // sea-ice model takes from below enters (a) and (b) as a forcing
+    let fb = sc.num("seaice.ocean_heat_flux");
+    let f0 = sc.num("radiation.forcing");
     let variants: Vec<Scenario> = MODELS
         .iter()
-        .map(|(_, _, sets)| {
+        .enumerate()
+        .map(|(k, (_, _, sets))| {
             let mut all = args.sets.clone();
             all.extend(sets.iter().map(|s| s.to_string()));
+            if k < 2 {
+                all.push(format!("radiation.forcing={}", f0 + fb));
+            }
             Scenario::parse(&base, &sc.source, &all)
         })
         .collect::<Result<_, _>>()?;
@@ -55,8 +67,15 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
             ))
         })?;
     }
-    let model = variants[0].model();
+    let model = variants[2].model();
     let (param, from, to) = parse_range(args, &model)?;
+    // traced in F itself, (a) and (b) run over the range shifted by F_b and
+    // are reported on the axis of F
+    let shift = if param == crate::model::Param::Forcing {
+        fb
+    } else {
+        0.0
+    };
     let bar = Progress::spinner("trace", args.quiet);
     let mut progress = |msg: &str| bar.message(msg);
     let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
@@ -68,31 +87,35 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
                 tolerance: v.num("solver.tolerance"),
                 ..TraceOptions::default()
             };
-            trace_all(
+            let mut h = trace_all(
                 &v.model(),
                 param,
-                from,
-                to,
+                from + shift,
+                to + shift,
                 warm,
                 cold,
                 &opts,
                 &mut progress,
-            )
+            );
+            shift_axis(&mut h, shift);
+            h
         } else {
             let sm = v
                 .seasonal_model()
                 .map_err(|e| CliError::Usage(format!("seasonal model: {e}")))?;
+            let s = if k == 1 { shift } else { 0.0 };
             let mut h = trace_seasonal(
                 &sm,
                 param,
-                from,
-                to,
+                from + s,
+                to + s,
                 warm,
                 cold,
                 &SeasonalTraceOptions::default(),
                 &mut progress,
             );
             crate::analysis::branches::drop_unphysical(sm.model(), &mut h);
+            shift_axis(&mut h, s);
             h
         };
         h.failures
@@ -243,10 +266,35 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     summary.insert("vary".into(), key.into());
     summary.insert("range".into(), serde_json::json!([from, to]));
     summary.insert("models".into(), per_model.into());
+    summary.insert("ocean_heat_flux_as_forcing_wm2".into(), fb.into());
     out.add_json(dir.join("summary.json"), &summary);
     out.add(dir.join("hierarchy.svg"), fig.svg);
     out.add(dir.join("hierarchy.png"), fig.png);
     out.add_text(dir.join("scenario.toml"), &base);
     let written = out.publish(&dir)?;
     Ok(text + &written_list(&written))
+}
+
+/// Moves a trace in `radiation.forcing` made at F + s onto the axis of F:
+/// every point, fold, jump target, window and the range by -s.
+fn shift_axis(h: &mut Hysteresis, s: f64) {
+    if s == 0.0 {
+        return;
+    }
+    for b in &mut h.branches {
+        for q in &mut b.points {
+            q.p -= s;
+        }
+        for f in &mut b.folds {
+            f.point.p -= s;
+            if let Some(j) = f.jump_to.as_mut() {
+                j.p -= s;
+            }
+        }
+    }
+    for w in &mut h.bistable {
+        w.0 -= s;
+        w.1 -= s;
+    }
+    h.range = (h.range.0 - s, h.range.1 - s);
 }
