@@ -138,3 +138,67 @@ proptest! {
         }
     }
 }
+
+/// Random sea-ice planets (Wagner & Eisenman 2015 model, every value in
+/// its documented range): conductivity, latent heat, ocean heat flux,
+/// forcing, diffusivity, mixed layer.
+fn sea_ice_scenario() -> impl Strategy<Value = Vec<String>> {
+    (
+        (0.5f64..5.0, 3.0f64..20.0, 0.0f64..10.0),
+        (-20.0f64..20.0, 0.2f64..1.2, 20.0f64..150.0),
+    )
+        .prop_map(|((k, lf, fb), (f, d, h))| {
+            vec![
+                format!("seaice.conductivity={k}"),
+                format!("seaice.latent_heat={lf}"),
+                format!("seaice.ocean_heat_flux={fb}"),
+                format!("radiation.forcing={f}"),
+                format!("transport.diffusivity={d}"),
+                format!("seasons.mixed_layer_depth={h}"),
+                "grid.bands=16".into(),
+                "seasons.steps_per_year=24".into(),
+            ]
+        })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 64, rng_seed: proptest::test_runner::RngSeed::Fixed(20261203), ..ProptestConfig::default() })]
+
+    /// Every periodic sea-ice climate found is physical (surface
+    /// temperatures finite, above absolute zero and never above the
+    /// freezing point over ice; thicknesses finite and non-negative; ice
+    /// fractions in [0, 1]) and closes its energy budget: the annual
+    /// global mean of the net top-of-atmosphere flux plus F_b is zero
+    /// (conservation of energy over a periodic cycle; common practice).
+    #[test]
+    fn sea_ice_climates_are_physical_and_balanced(sets in sea_ice_scenario()) {
+        use icefold::analysis::periodic::{ShootingOptions, cycle, find_periodic};
+        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/sea-ice.toml");
+        let sc = Scenario::load(Some(std::path::Path::new(path)), &sets).unwrap();
+        let mut sm = sc.seasonal_model().unwrap();
+        let n = sm.len();
+        let starts = standard_starts(n, 30.0, -60.0);
+        let search = find_periodic(&mut sm, &starts, &ShootingOptions { spin_up_years: 150, ..ShootingOptions::default() });
+        let fb = sc.num("seaice.ocean_heat_flux");
+        // every planet has at least one periodic climate (a warm or a
+        // snowball one) that the starts reach
+        prop_assert!(!search.climates.is_empty(), "{:?}", search.failures);
+        for p in &search.climates {
+            prop_assert!(p.residual < 1e-9);
+            let c = cycle(&mut sm, &p.start).unwrap();
+            for (k, st) in c.states.iter().enumerate() {
+                for i in 0..n {
+                    prop_assert!(st[i].is_finite() && st[i] >= ABSOLUTE_ZERO_C);
+                    let h = c.ice_thickness[k][i];
+                    prop_assert!(h.is_finite() && h >= 0.0);
+                    if h > 0.0 {
+                        prop_assert!(st[i] <= 1e-9, "ice surface at {} C", st[i]);
+                    }
+                }
+                prop_assert!((0.0..=1.0).contains(&c.ice_area_fraction[k]));
+            }
+            let budget = c.toa_annual_mean + fb;
+            prop_assert!(budget.abs() < 1e-8, "TOA + F_b = {budget:e}");
+        }
+    }
+}

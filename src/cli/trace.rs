@@ -269,7 +269,13 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             "no branch could be traced; nothing written".into(),
         ));
     }
-    let (tolerance, unit, measure) = if seasonal {
+    let (tolerance, unit, measure) = if seasonal && sc.flag("seaice.enabled") {
+        (
+            seasonal_opts.tolerance,
+            "W yr m-2",
+            "max |u - Phi(u)| over the bands: the change of the surface enthalpy over one year",
+        )
+    } else if seasonal {
         (
             seasonal_opts.tolerance,
             "K",
