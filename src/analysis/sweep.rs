@@ -453,7 +453,10 @@ pub fn compute_seasonal_slice(
         &mut |_| {},
     );
     crate::analysis::branches::drop_unphysical(sm.model(), &mut h);
-    crate::analysis::branches::resolve_jumps(&mut h.branches, (spec.vary_to - spec.vary_from).abs());
+    crate::analysis::branches::resolve_jumps(
+        &mut h.branches,
+        (spec.vary_to - spec.vary_from).abs(),
+    );
     reduce(spec, j, a, &h)
 }
 

@@ -172,7 +172,19 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
             vary.key()
         )));
     }
-    for (flag, p) in [("--across", across), ("--vary", vary)] {
+    let flags = [
+        if args.across.is_some() {
+            "--across"
+        } else {
+            "--across (default)"
+        },
+        if args.vary.is_some() {
+            "--vary"
+        } else {
+            "--vary (default)"
+        },
+    ];
+    for (flag, p) in flags.into_iter().zip([across, vary]) {
         if let Some(e) = seasonal_key_error(&mm, flag, p) {
             return Err(usage(e));
         }

@@ -125,7 +125,10 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<MapModel, CliError> {
     if sp.fold_curves && matches!(mm, MapModel::Seasonal(_)) {
         return Err(bad(
             "spec.fold_curves".into(),
-            format!("= true, but fold curves need the annual-mean model, not {}", mm.name()),
+            format!(
+                "= true, but fold curves need the annual-mean model, not {}",
+                mm.name()
+            ),
         ));
     }
     let (lo, hi) = vp.range();
