@@ -309,6 +309,9 @@ pub fn compute_slice(
 /// The model a map traces in each slice: the scenario's own model, never
 /// a substitute (an annual-mean map is not drawn for a seasonal scenario).
 #[derive(Clone, Debug)]
+// one value per map, cloned once per slice: the size of the seasonal
+// variant does not matter
+#[allow(clippy::large_enum_variant)]
 pub enum MapModel {
     /// The annual-mean model F(T; p) = 0: equilibria by [`trace_all`],
     /// stable where no eigenvalue of C⁻¹ J is positive.
