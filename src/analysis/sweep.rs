@@ -430,7 +430,9 @@ impl MapModel {
 /// seasonal trace), then reduced exactly as an annual-mean slice
 /// ([`reduce`]). Points report the annual-mean profile of their cycle,
 /// stability from the Floquet multipliers, and max |u - Φ(u)| (K) as the
-/// residual. Runs on the calling thread (no parallelism inside).
+/// residual. Nothing inside runs in parallel except faer's dense solves
+/// under faer's global parallelism, which `map` sets to sequential
+/// (`faer::set_global_parallelism(faer::Par::Seq)`).
 #[allow(clippy::too_many_arguments)]
 pub fn compute_seasonal_slice(
     sm: &SeasonalModel,
