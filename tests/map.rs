@@ -511,17 +511,3 @@ fn merge_rejects_hand_edited_shards() {
     }
     let _ = std::fs::remove_dir_all(&dir);
 }
-
-/// A seasonal scenario is never mapped as if it were annual-mean: `map`
-/// refuses it with the reason (exit 2) and writes nothing.
-#[test]
-fn seasonal_scenarios_are_not_mapped_silently_as_annual() {
-    let dir = std::env::temp_dir().join(format!("icefold-map-seasonal-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    let sea_ice = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/sea-ice.toml");
-    let (code, _, err) = icefold(&["map", sea_ice, "--out", dir.to_str().unwrap(), "--quiet"]);
-    assert_eq!(code, 2, "{err}");
-    assert!(err.contains("seasons.enabled"), "{err}");
-    assert_eq!(err.trim().lines().count(), 1, "{err}");
-    assert!(!dir.exists());
-}

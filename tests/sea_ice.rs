@@ -451,3 +451,27 @@ fn without_ice_the_sea_ice_model_is_the_seasonal_model() {
         assert!((e - cw * t).abs() < 1e-8 * cw);
     }
 }
+
+/// Commands of the annual-mean model never drop the sea ice silently:
+/// `solve`, and `trace` without seasons, refuse a sea-ice scenario (exit 2,
+/// one line, nothing written).
+#[test]
+fn annual_commands_refuse_sea_ice() {
+    #[path = "common/mod.rs"]
+    mod common;
+    let dir = common::temp_dir("sea-ice-refusals");
+    for args in [
+        vec!["solve", SEA_ICE],
+        vec!["trace", SEA_ICE, "--set", "seasons.enabled=false"],
+    ] {
+        let out = dir.join(args[0]);
+        let mut a = args.clone();
+        a.extend(["--quiet", "--out", out.to_str().unwrap()]);
+        let (code, _, err) = common::icefold(&a);
+        assert_eq!(code, 2, "{args:?}: {err}");
+        assert!(err.contains("seaice.enabled"), "{err}");
+        assert_eq!(err.trim().lines().count(), 1);
+        assert!(!out.exists());
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}

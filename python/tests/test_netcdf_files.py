@@ -25,6 +25,22 @@ pytestmark = pytest.mark.skipif(
 
 RUNS = {
     "map": ["map", "--across", "orbit.obliquity=0:60:7", "--cells", "40"],
+    "seasonal_map": [
+        "map",
+        str(ROOT / "scenarios" / "sea-ice.toml"),
+        "--set",
+        "grid.bands=16",
+        "--set",
+        "seasons.steps_per_year=24",
+        "--across",
+        "radiation.forcing=0:2:3",
+        "--from",
+        "1220",
+        "--to",
+        "1300",
+        "--cells",
+        "20",
+    ],
     "periodic": [
         "periodic",
         "--set",
@@ -189,3 +205,23 @@ def test_map_counts_match_the_per_climate_variables(outputs):
         t = temperature.values
         diffs = np.diff(t, axis=2)
         assert np.all(np.isnan(diffs) | (diffs <= 0))
+
+
+def test_map_files_name_the_model_that_made_them(outputs):
+    """map.nc says which model made the map (a global attribute, as CF
+    allows free-form ones; from memory); a seasonal map's residual is a
+    temperature change in K, and its cells are finite where present."""
+    with open_strict(outputs["map"] / "map.nc") as ds:
+        assert ds.attrs["model"] == "annual-mean"
+        assert "steps_per_year" not in ds.attrs
+        assert ds["slice_max_residual"].attrs["units"] == "W m-2"
+    with open_strict(outputs["seasonal_map"] / "map.nc") as ds:
+        assert ds.attrs["model"] == "seasonal with sea ice"
+        assert int(ds.attrs["steps_per_year"]) == 24
+        assert "Floquet" in ds.attrs["stability"]
+        assert ds["slice_max_residual"].attrs["units"] == "K"
+        count = ds["stable_climates"]
+        assert count.dims == ("orbit_flux", "radiation_forcing")
+        t = ds["global_mean_temperature"]
+        assert ((t.notnull().sum("climate")) == count).all()
+        assert np.all(np.isfinite(t.values[t.notnull().values]))

@@ -3,7 +3,9 @@
 //! and merged, then rendered the same way whatever the threads or shards.
 
 use crate::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::analysis::periodic::{SeasonalTraceOptions, trace_seasonal};
 use crate::model::climate::State;
+use crate::model::seasonal::SeasonalModel;
 use crate::model::{Model, Param};
 use serde::{Deserialize, Serialize};
 
@@ -82,7 +84,7 @@ pub struct MapPoint {
     /// Northern ice edges, deg.
     pub ice_edges_deg: Vec<f64>,
     /// The residual the point reached: max |F|, W m-2 (annual-mean
-    /// models).
+    /// model), or max |u - Φ(u)|, K (seasonal models; [`MapModel::residual`]).
     pub residual: f64,
     /// Habitable fraction of the surface
     /// ([`crate::model::climate::Diagnostics::habitable_fraction`]).
@@ -300,6 +302,165 @@ pub fn compute_slice(
         cold,
         &opts,
         &mut |_| {},
+    );
+    reduce(spec, j, a, &h)
+}
+
+/// The model a map traces in each slice: the scenario's own model, never
+/// a substitute (an annual-mean map is not drawn for a seasonal scenario).
+#[derive(Clone, Debug)]
+// one value per map, cloned once per slice: the size of the seasonal
+// variant does not matter
+#[allow(clippy::large_enum_variant)]
+pub enum MapModel {
+    /// The annual-mean model F(T; p) = 0: equilibria by [`trace_all`],
+    /// stable where no eigenvalue of C⁻¹ J is positive.
+    Annual(Model),
+    /// The seasonal model (with or without sea ice): periodic climates
+    /// u = Φ(u) of the annual map by
+    /// [`crate::analysis::periodic::trace_seasonal`], stable where no
+    /// Floquet multiplier (eigenvalue of the monodromy matrix M = ∂Φ/∂u)
+    /// lies outside the unit circle.
+    Seasonal(SeasonalModel),
+}
+
+impl MapModel {
+    /// Name of the model, as written in `summary.json`, `map.nc` and shard
+    /// files: "annual-mean", "seasonal" or "seasonal with sea ice".
+    pub fn name(&self) -> &'static str {
+        match self {
+            MapModel::Annual(_) => "annual-mean",
+            MapModel::Seasonal(sm) if sm.has_sea_ice() => "seasonal with sea ice",
+            MapModel::Seasonal(_) => "seasonal",
+        }
+    }
+
+    /// Implicit time steps per year of a seasonal model (None: annual-mean).
+    pub fn steps_per_year(&self) -> Option<usize> {
+        match self {
+            MapModel::Annual(_) => None,
+            MapModel::Seasonal(sm) => Some(sm.steps_per_year()),
+        }
+    }
+
+    /// The annual-mean model of the planet (for a seasonal model, under the
+    /// annual-mean insolation): the parameters it has, and the model the
+    /// annual-only parts of a map (fold curves) use.
+    pub fn annual(&self) -> Model {
+        match self {
+            MapModel::Annual(m) => m.clone(),
+            MapModel::Seasonal(sm) => sm.annual_model(),
+        }
+    }
+
+    /// How stability is decided, in words (for `summary.json` and `map.nc`).
+    pub fn stability(&self) -> &'static str {
+        match self {
+            MapModel::Annual(_) => {
+                "stable equilibrium: no positive eigenvalue of the Jacobian of the energy balance (per unit heat capacity)"
+            }
+            MapModel::Seasonal(_) => {
+                "stable periodic climate: no Floquet multiplier (eigenvalue of the monodromy matrix of the annual map) outside the unit circle"
+            }
+        }
+    }
+
+    /// The residual of a traced point: (unit, what it measures).
+    pub fn residual(&self) -> (&'static str, &'static str) {
+        match self {
+            MapModel::Annual(_) => (
+                "W m-2",
+                "max |F| over the cells: the energy imbalance of the worst cell",
+            ),
+            MapModel::Seasonal(_) => (
+                "K",
+                "max |u - Phi(u)| over the bands: the change of the state over one year",
+            ),
+        }
+    }
+
+    /// The corrector tolerance the slices are traced to: `annual_tol`
+    /// (`solver.tolerance`, W m-2) for the annual-mean model, the seasonal
+    /// trace's own tolerance on max |u - Φ(u)| (K,
+    /// [`SeasonalTraceOptions::default`], as `trace` uses) otherwise.
+    pub fn tolerance(&self, annual_tol: f64) -> f64 {
+        match self {
+            MapModel::Annual(_) => annual_tol,
+            MapModel::Seasonal(_) => SeasonalTraceOptions::default().tolerance,
+        }
+    }
+
+    /// Computes slice j of the map with this model ([`compute_slice`] or
+    /// [`compute_seasonal_slice`]); `tol` is `solver.tolerance` (used by the
+    /// annual-mean model only, see [`MapModel::tolerance`]).
+    #[allow(clippy::too_many_arguments)]
+    pub fn slice(
+        &self,
+        spec: &MapSpec,
+        across: Param,
+        vary: Param,
+        j: usize,
+        warm: f64,
+        cold: f64,
+        tol: f64,
+    ) -> Slice {
+        match self {
+            MapModel::Annual(m) => compute_slice(m, spec, across, vary, j, warm, cold, tol),
+            MapModel::Seasonal(sm) => compute_seasonal_slice(
+                sm,
+                spec,
+                across,
+                vary,
+                j,
+                warm,
+                cold,
+                &SeasonalTraceOptions::default(),
+            ),
+        }
+    }
+}
+
+/// Computes slice j of a seasonal map: the seasonal model with the across
+/// parameter set to its value, every branch of periodic climates traced in
+/// the vary parameter over exactly [vary_from, vary_to] by
+/// [`crate::analysis::periodic::trace_seasonal`] (no extension of the
+/// range: every slice covers the same cells), states below absolute zero
+/// removed, each fold's stable climate and branch-list jump resolved
+/// ([`crate::analysis::branches::resolve_jumps`], as `trace` does for a
+/// seasonal trace), then reduced exactly as an annual-mean slice
+/// ([`reduce`]). Points report the annual-mean profile of their cycle,
+/// stability from the Floquet multipliers, and max |u - Φ(u)| (K) as the
+/// residual. Nothing inside runs in parallel except faer's dense solves
+/// under faer's global parallelism, which `map` sets to sequential
+/// (`faer::set_global_parallelism(faer::Par::Seq)`).
+#[allow(clippy::too_many_arguments)]
+pub fn compute_seasonal_slice(
+    sm: &SeasonalModel,
+    spec: &MapSpec,
+    across: Param,
+    vary: Param,
+    j: usize,
+    warm: f64,
+    cold: f64,
+    opts: &SeasonalTraceOptions,
+) -> Slice {
+    let mut sm = sm.clone();
+    let a = spec.across_value(j);
+    sm.set_param(across, a);
+    let mut h = trace_seasonal(
+        &sm,
+        vary,
+        spec.vary_from,
+        spec.vary_to,
+        warm,
+        cold,
+        opts,
+        &mut |_| {},
+    );
+    crate::analysis::branches::drop_unphysical(sm.model(), &mut h);
+    crate::analysis::branches::resolve_jumps(
+        &mut h.branches,
+        (spec.vary_to - spec.vary_from).abs(),
     );
     reduce(spec, j, a, &h)
 }

@@ -33,7 +33,8 @@ pub enum Command {
     /// unstable states, folds, the jump at each fold, bistable windows.
     Trace(TraceCmd),
     /// Regime map: a trace in one parameter for every value of another, in
-    /// parallel; results do not depend on threads or shards.
+    /// parallel, with the scenario's model (periodic climates when
+    /// seasons.enabled); results do not depend on threads or shards.
     Map(MapCmd),
     /// Join `map --shard` results into exactly the files a single run writes.
     Merge(MergeCmd),
@@ -169,7 +170,8 @@ pub struct MapCmd {
     /// Compute only slices K, K+N, K+2N, ... and write a shard file.
     #[arg(long, value_name = "K/N")]
     pub shard: Option<String>,
-    /// Also continue each boundary's fold in both parameters.
+    /// Also continue each boundary's fold in both parameters (annual-mean
+    /// model only).
     #[arg(long)]
     pub fold_curves: bool,
     #[command(flatten)]

@@ -4,7 +4,7 @@ use super::context::{Args, CliError, VERSION, load, written_list};
 use super::progress::Progress;
 use super::shard::{SHARD_FORMAT, ShardFile};
 use crate::analysis::sweep::{
-    MapSpec, STATES, Slice, compute_slice, join_boundaries, regime_label, state_bit,
+    MapModel, MapSpec, STATES, Slice, join_boundaries, regime_label, state_bit,
 };
 use crate::cli::trace::parse_range;
 use crate::io::export::{Cell, OutputSet, Table};
@@ -95,16 +95,71 @@ fn parse_shard(v: &Option<String>) -> Result<Option<(usize, usize)>, CliError> {
     Ok(Some((k, n)))
 }
 
+/// The model the scenario asks for: the seasonal model (with sea ice
+/// where `seaice.enabled`) when `seasons.enabled`, else the annual-mean
+/// model. Never a substitute: sea ice without seasons, or a seasonal model
+/// the scenario cannot build, is a usage error naming the key.
+pub(super) fn map_model(sc: &crate::io::scenario::Scenario) -> Result<MapModel, CliError> {
+    if sc.flag("seasons.enabled") {
+        return sc.seasonal_model().map(MapModel::Seasonal).map_err(|e| {
+            usage(format!(
+                "`seasons.enabled` = true, but the seasonal model refuses this scenario: {e}"
+            ))
+        });
+    }
+    if sc.flag("seaice.enabled") {
+        return Err(usage(
+            "`seaice.enabled` = true needs `seasons.enabled` = true (sea ice is part of the seasonal model): set seasons.enabled = true for a seasonal map with sea ice, or seaice.enabled = false for the annual-mean map".into(),
+        ));
+    }
+    Ok(MapModel::Annual(sc.model()))
+}
+
+/// Why the map model cannot take `param` on the axis named by `flag`
+/// (`--across` or `--vary`), if it cannot: the seasonal model with sea ice
+/// does not use `albedo.threshold` (ice where the enthalpy is negative),
+/// and a seasonal model whose insolation is not orbital does not depend on
+/// `orbit.obliquity` or `orbit.eccentricity` (its insolation tables ignore
+/// the orbit).
+pub(super) fn seasonal_key_error(mm: &MapModel, flag: &str, param: Param) -> Option<String> {
+    let MapModel::Seasonal(sm) = mm else {
+        return None;
+    };
+    let key = param.key();
+    if sm.has_sea_ice() && param == Param::Threshold {
+        return Some(format!(
+            "{flag} {key}: the seasonal model with sea ice does not use {key} (ice is where the surface enthalpy is negative); choose another key or set seaice.enabled = false"
+        ));
+    }
+    let orbital = matches!(
+        sm.model().planet.insolation,
+        crate::physics::insolation::InsolationLaw::Orbital
+    );
+    if !orbital && matches!(param, Param::Obliquity | Param::Eccentricity) {
+        return Some(format!(
+            "{flag} {key}: the seasonal model with insolation.kind = \"{}\" does not depend on {key} (only orbital insolation follows the orbit); choose another key or set insolation.kind = \"orbital\"",
+            insolation_kind(sm.model())
+        ));
+    }
+    None
+}
+
+fn insolation_kind(m: &crate::model::Model) -> &'static str {
+    use crate::physics::insolation::InsolationLaw;
+    match m.planet.insolation {
+        InsolationLaw::Orbital => "orbital",
+        InsolationLaw::Legendre { .. } => "legendre",
+        InsolationLaw::Idealised { .. } => "idealised",
+    }
+}
+
 /// Runs `map`.
 pub fn cmd_map(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
-    // never an annual-mean map in place of the seasonal one asked for
-    if sc.flag("seasons.enabled") {
-        return Err(usage(
-            "`seasons.enabled` = true: map draws annual-mean regime maps only; seasonal (periodic-climate) maps are not built yet. Trace the seasonal model slice by slice with `icefold trace`, or set seasons.enabled = false for the annual-mean map".into(),
-        ));
-    }
-    let model = sc.model();
+    // the scenario's own model: periodic climates for a seasonal scenario,
+    // never an annual-mean map in its place
+    let mm = map_model(&sc)?;
+    let model = mm.annual();
     let across_text = args
         .across
         .clone()
@@ -115,6 +170,29 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         return Err(usage(format!(
             "--across and --vary are both `{}`: choose two different keys",
             vary.key()
+        )));
+    }
+    let flags = [
+        if args.across.is_some() {
+            "--across"
+        } else {
+            "--across (default)"
+        },
+        if args.vary.is_some() {
+            "--vary"
+        } else {
+            "--vary (default)"
+        },
+    ];
+    for (flag, p) in flags.into_iter().zip([across, vary]) {
+        if let Some(e) = seasonal_key_error(&mm, flag, p) {
+            return Err(usage(e));
+        }
+    }
+    if args.fold_curves && matches!(mm, MapModel::Seasonal(_)) {
+        return Err(usage(format!(
+            "--fold-curves: folds are continued in two parameters for the annual-mean model only, and this scenario's model is {} (a seasonal map joins the folds of its slices); drop --fold-curves",
+            mm.name()
         )));
     }
     let cells = parse_count("--cells", &args.cells, 200, 2, 100_000)?;
@@ -144,7 +222,16 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         .num_threads(threads)
         .build()
         .map_err(|e| CliError::Failed(format!("cannot start worker threads: {e}")))?;
-    let bar = Progress::bar("map", indices.len() as u64, "slices", args.quiet);
+    let bar = Progress::bar(
+        &format!("map ({})", mm.name()),
+        indices.len() as u64,
+        "slices",
+        args.quiet,
+    );
+    // rayon only at the outer loop: the dense solves inside a slice (faer:
+    // the seasonal model's monodromy LU and Floquet eigenvalues) run on the
+    // slice's thread, so a slice's result cannot depend on the pool
+    faer::set_global_parallelism(faer::Par::Seq);
     let (warm, cold, tol) = (
         sc.num("solver.warm_start"),
         sc.num("solver.cold_start"),
@@ -154,7 +241,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         indices
             .par_iter()
             .map(|&j| {
-                let s = compute_slice(&model, &spec, across, vary, j, warm, cold, tol);
+                let s = mm.slice(&spec, across, vary, j, warm, cold, tol);
                 bar.inc();
                 s
             })
@@ -170,6 +257,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         let file = ShardFile {
             format: SHARD_FORMAT.into(),
             tool: format!("icefold {VERSION}"),
+            model: mm.name().into(),
             spec: spec.clone(),
             scenario: sc.to_json(),
             scenario_toml: sc.to_toml(),
@@ -180,13 +268,14 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         out.add_text(dir.join(format!("shard-{k}-of-{n}.json")), &text);
         let written = out.commit()?;
         return Ok(format!(
-            "map shard {k}/{n}: {} slices\n{}",
+            "map shard {k}/{n} ({} model): {} slices\n{}",
+            mm.name(),
             file.slices.len(),
             written_list(&written)
         ));
     }
     render(
-        &model,
+        &mm,
         &spec,
         &sc.to_json(),
         &sc.to_toml(),
@@ -196,12 +285,15 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         &mut out,
     )?;
     let written = out.publish(&dir)?;
-    Ok(map_report(&spec, tol, &slices) + &written_list(&written))
+    Ok(map_report(&mm, &spec, tol, &slices) + &written_list(&written))
 }
 
-/// The map's stdout report: regimes present, failed slices, traced points
-/// above the corrector tolerance `tol` (W m-2), notes.
-pub(super) fn map_report(spec: &MapSpec, tol: f64, slices: &[Slice]) -> String {
+/// The map's stdout report: the model that made it, regimes present,
+/// failed slices, traced points above the corrector tolerance
+/// ([`MapModel::tolerance`] of `tol`, `solver.tolerance`), notes.
+pub(super) fn map_report(mm: &MapModel, spec: &MapSpec, tol: f64, slices: &[Slice]) -> String {
+    let (unit, _) = mm.residual();
+    let tol = mm.tolerance(tol);
     let mut seen = std::collections::BTreeSet::new();
     for s in slices.iter().filter(|s| !s.points.is_empty()) {
         for r in &s.regime {
@@ -209,12 +301,13 @@ pub(super) fn map_report(spec: &MapSpec, tol: f64, slices: &[Slice]) -> String {
         }
     }
     let mut s = format!(
-        "map: {} slices of {} over {}..{}, traced in {}\n",
+        "map: {} slices of {} over {}..{}, traced in {}\n  model: {}\n",
         slices.len(),
         spec.across,
         spec.across_from,
         spec.across_to,
-        spec.vary
+        spec.vary,
+        model_line(mm)
     );
     for r in seen {
         s += &format!("  regime present: {}\n", regime_label(r));
@@ -232,7 +325,8 @@ pub(super) fn map_report(spec: &MapSpec, tol: f64, slices: &[Slice]) -> String {
     if above > 0 {
         let worst = pts.map(|q| q.residual).fold(0.0, f64::max);
         s += &format!(
-            "  residual: {above} of {total} traced points stop above the tolerance {tol:e} W m-2 at the rounding floor (largest {worst:.3e} W m-2; map.csv residual_wm2, map.nc slice_max_residual)\n"
+            "  residual: {above} of {total} traced points stop above the tolerance {tol:e} {unit} at the rounding floor (largest {worst:.3e} {unit}; map.csv {}, map.nc slice_max_residual)\n",
+            residual_column(mm)
         );
     }
     let notes: usize = slices.iter().map(|s| s.notes.len()).sum();
@@ -242,6 +336,26 @@ pub(super) fn map_report(spec: &MapSpec, tol: f64, slices: &[Slice]) -> String {
         );
     }
     s
+}
+
+/// The model in one line: its name, steps per year and how stability is
+/// decided (stdout report).
+fn model_line(mm: &MapModel) -> String {
+    match mm.steps_per_year() {
+        None => format!("{} (equilibria; stability from the Jacobian)", mm.name()),
+        Some(n) => format!(
+            "{} ({n} steps per year; periodic climates, stability from the Floquet multipliers)",
+            mm.name()
+        ),
+    }
+}
+
+/// The map.csv column of the residual, named with its unit.
+fn residual_column(mm: &MapModel) -> &'static str {
+    match mm {
+        MapModel::Annual(_) => "residual_wm2",
+        MapModel::Seasonal(_) => "residual_k",
+    }
 }
 
 pub(super) fn scenario_num(scenario: &serde_json::Value, key: &str, default: f64) -> f64 {
@@ -258,7 +372,7 @@ fn sanitize(key: &str) -> String {
 /// Renders the files of a complete map into `out` (staged, not written).
 #[allow(clippy::too_many_arguments)]
 pub(super) fn render(
-    model: &crate::model::Model,
+    mm: &MapModel,
     spec: &MapSpec,
     scenario: &serde_json::Value,
     scenario_toml: &str,
@@ -294,7 +408,7 @@ pub(super) fn render(
         "global_mean_temperature_c",
         "ice_area_fraction",
         "ice_edges_deg",
-        "residual_wm2",
+        residual_column(mm),
         "habitable_fraction",
     ]);
     for s in slices {
@@ -318,7 +432,7 @@ pub(super) fn render(
     out.add_table(dir.join("map.csv"), &t)?;
     // boundaries.csv
     let mut bounds = join_boundaries(slices);
-    if spec.fold_curves {
+    if let (true, MapModel::Annual(model)) = (spec.fold_curves, mm) {
         let (ap, vp) = (
             Param::from_key(ak).expect("validated key"),
             Param::from_key(vk).expect("validated key"),
@@ -364,6 +478,7 @@ pub(super) fn render(
         }
     }
     let nc = map_netcdf(
+        mm,
         spec,
         name,
         scenario_toml,
@@ -403,11 +518,15 @@ pub(super) fn render(
             })
             .collect(),
     };
+    let head = match mm {
+        MapModel::Annual(_) => "Stable climates".to_string(),
+        MapModel::Seasonal(_) => format!("Stable periodic climates ({} model)", mm.name()),
+    };
     let title = if failed.is_empty() {
-        format!("Stable climates: {name}")
+        format!("{head}: {name}")
     } else {
         format!(
-            "Stable climates: {name} ({} of {} slices failed, drawn empty)",
+            "{head}: {name} ({} of {} slices failed, drawn empty)",
             failed.len(),
             slices.len()
         )
@@ -421,21 +540,26 @@ pub(super) fn render(
         .filter(|s| !s.notes.is_empty())
         .map(|s| serde_json::json!({ "slice": s.index, ak: s.across, "notes": s.notes }))
         .collect();
+    let (unit, measure) = mm.residual();
+    let tol = mm.tolerance(scenario_num(scenario, "solver.tolerance", 1e-10));
     let summary = serde_json::json!({
         "tool": format!("icefold {VERSION}"),
         "command": spec.command(),
+        "model": mm.name(),
+        "steps_per_year": mm.steps_per_year(),
+        "stability": mm.stability(),
         "scenario": scenario,
         "spec": spec,
         "regimes": names,
         "boundaries": bounds.iter().map(|b| serde_json::json!({"transition": b.transition, "method": b.method, "points": b.points.len()})).collect::<Vec<_>>(),
         "notes": notes,
         "residual": {
-            "measure": "max |F| over the cells: the energy imbalance of the worst cell",
-            "unit": "W m-2",
-            "tolerance": scenario_num(scenario, "solver.tolerance", 1e-10),
+            "measure": measure,
+            "unit": unit,
+            "tolerance": tol,
             "max": slices.iter().flat_map(|s| s.points.iter()).map(|q| q.residual).fold(0.0, f64::max),
             "points": slices.iter().map(|s| s.points.len()).sum::<usize>(),
-            "points_above_tolerance": slices.iter().flat_map(|s| s.points.iter()).filter(|q| q.residual > scenario_num(scenario, "solver.tolerance", 1e-10)).count(),
+            "points_above_tolerance": slices.iter().flat_map(|s| s.points.iter()).filter(|q| q.residual > tol).count(),
         },
         "failed_slices": failed
             .iter()
@@ -454,6 +578,7 @@ pub(super) fn render(
 /// (most poleward per hemisphere) and habitable fraction. `xs`, `ys` are the axes, `regime`, `count` the per-cell grids
 /// (index `j * xs.len() + i`).
 fn map_netcdf(
+    mm: &MapModel,
     spec: &MapSpec,
     name: &str,
     scenario_toml: &str,
@@ -592,17 +717,21 @@ fn map_netcdf(
         })
         .collect();
     let v = nc.add_var_f64("slice_max_residual", &[adim.as_str()], worst)?;
+    let (unit, measure) = mm.residual();
     nc.var_attrs_text(
         v,
         &[
             (
                 "long_name",
-                "largest energy imbalance of a cell (max |F|) over the slice's traced points",
+                &format!("largest residual over the slice's traced points: {measure}"),
             ),
-            ("units", "W m-2"),
+            ("units", unit),
             (
                 "comment",
-                "above solver.tolerance where Newton reached the rounding floor of double precision (see map.csv residual_wm2)",
+                &format!(
+                    "above the corrector tolerance where Newton reached the rounding floor of double precision (see map.csv {})",
+                    residual_column(mm)
+                ),
             ),
         ],
     );
@@ -670,10 +799,21 @@ fn map_netcdf(
     nc.global_attr_text("title", &format!("Regime map: {name}"));
     nc.global_attr_text("source", &format!("icefold {VERSION}"));
     nc.global_attr_text("history", &spec.command());
+    nc.global_attr_text("model", mm.name());
+    if let Some(n) = mm.steps_per_year() {
+        nc.global_attr_i32("steps_per_year", &[n as i32]);
+    }
+    nc.global_attr_text("stability", mm.stability());
+    let what = match mm {
+        MapModel::Annual(_) => "equilibria of the annual-mean model",
+        MapModel::Seasonal(_) => {
+            "periodic climates of the seasonal model (each reported by its annual-mean profile)"
+        }
+    };
     nc.global_attr_text(
         "comment",
         &format!(
-            "One slice per value of {ak}, traced by continuation in {vk}. The traced range is summarised on {} cells: the stable climates of a cell are the stable branch segments spanning its centre, each with the values of the traced point nearest the centre.",
+            "One slice per value of {ak}: the {what}, traced by continuation in {vk}. The traced range is summarised on {} cells: the stable climates of a cell are the stable branch segments spanning its centre, each with the values of the traced point nearest the centre.",
             spec.cells
         ),
     );

@@ -2,21 +2,23 @@
 //! check of every field, and `icefold merge`, which joins shards into
 //! exactly the files of a single run.
 use super::context::{Args, CliError, written_list};
-use super::map::{map_report, parse_across, render, usage};
-use crate::analysis::sweep::{MapSpec, Slice};
+use super::map::{map_model, map_report, parse_across, render, seasonal_key_error, usage};
+use crate::analysis::sweep::{MapModel, MapSpec, Slice};
 use crate::io::export::OutputSet;
 use crate::model::Param;
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
-/// Format tag of shard files.
-pub(super) const SHARD_FORMAT: &str = "icefold-map-shard-3";
+/// Format tag of shard files (4: with the model that made the map).
+pub(super) const SHARD_FORMAT: &str = "icefold-map-shard-4";
 
 /// A shard file: everything a merge needs to render the map.
 #[derive(Serialize, Deserialize)]
 pub(super) struct ShardFile {
     pub(super) format: String,
     pub(super) tool: String,
+    /// The model that computed the slices ([`MapModel::name`]).
+    pub(super) model: String,
     pub(super) spec: MapSpec,
     pub(super) scenario: serde_json::Value,
     pub(super) scenario_toml: String,
@@ -48,12 +50,13 @@ pub fn check_shard_file(f: &Path) -> Result<(), CliError> {
 }
 
 /// Checks every field of a shard read from `f` against what `map` could
-/// have written: the scenario text equals the scenario it claims, the map
+/// have written: the scenario text equals the scenario it claims, the
+/// model is the one that scenario makes, the map
 /// command passes the same checks as `map`'s options, the shard number
 /// fits, and every slice lies on the declared grid with known states,
 /// finite values in their ranges and regime masks that agree with the
 /// climates. A hand-edited shard fails with the field named (exit 2).
-fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, CliError> {
+fn validate_shard(f: &Path, shard: &ShardFile) -> Result<MapModel, CliError> {
     use crate::analysis::sweep::{STATES, state_bit};
     let bad = |field: String, why: String| usage(format!("{}: field `{field}` {why}", f.display()));
     let sc =
@@ -69,7 +72,19 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, Cl
             "does not match the scenario text of the shard (scenario_toml)".into(),
         ));
     }
-    let model = sc.model();
+    let mm = map_model(&sc)
+        .map_err(|e| bad("scenario_toml".into(), format!("cannot be mapped ({e})")))?;
+    if shard.model != mm.name() {
+        return Err(bad(
+            "model".into(),
+            format!(
+                "= `{}` is not the model of the shard's scenario (`{}`)",
+                shard.model,
+                mm.name()
+            ),
+        ));
+    }
+    let model = mm.annual();
     let sp = &shard.spec;
     let across_text = format!(
         "{}={}:{}:{}",
@@ -95,6 +110,26 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, Cl
     })?;
     if vp == ap {
         return Err(bad("spec.vary".into(), "equals spec.across".into()));
+    }
+    if !model.has_param(vp) {
+        return Err(bad(
+            "spec.vary".into(),
+            format!("= `{}` does not apply to the scenario", sp.vary),
+        ));
+    }
+    for (field, flag, p) in [("spec.across", "--across", ap), ("spec.vary", "--vary", vp)] {
+        if let Some(e) = seasonal_key_error(&mm, flag, p) {
+            return Err(bad(field.into(), format!("is refused: {e}")));
+        }
+    }
+    if sp.fold_curves && matches!(mm, MapModel::Seasonal(_)) {
+        return Err(bad(
+            "spec.fold_curves".into(),
+            format!(
+                "= true, but fold curves need the annual-mean model, not {}",
+                mm.name()
+            ),
+        ));
     }
     let (lo, hi) = vp.range();
     if !(sp.vary_from.is_finite()
@@ -243,7 +278,7 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<crate::model::Model, Cl
             }
         }
     }
-    Ok(model)
+    Ok(mm)
 }
 
 /// Runs `merge DIR...`: joins shard files into the outputs of a single run.
@@ -280,6 +315,16 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
     for f in &files {
         let shard = read_shard(f)?;
         if let Some(r) = &first {
+            // the model first: shards of different models are different
+            // scenarios too, but the model is what makes them incompatible
+            if r.model != shard.model {
+                return Err(usage(format!(
+                    "{}: field `model` = `{}`, but the other shards were made by the {} model; shards of different models cannot be merged",
+                    f.display(),
+                    shard.model,
+                    r.model
+                )));
+            }
             if r.spec != shard.spec {
                 return Err(usage(format!(
                     "{}: a shard of a different map command (`{}` vs `{}`)",
@@ -362,11 +407,11 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         .clone()
         .unwrap_or_else(|| PathBuf::from("out").join("map"));
     let mut out = OutputSet::new();
-    let model = crate::io::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
-        .map_err(|e| usage(format!("shard scenario: {e}")))?
-        .model();
+    let sc = crate::io::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
+        .map_err(|e| usage(format!("shard scenario: {e}")))?;
+    let mm = map_model(&sc)?;
     render(
-        &model,
+        &mm,
         &meta.spec,
         &meta.scenario,
         &meta.scenario_toml,
@@ -377,5 +422,5 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
     )?;
     let written = out.publish(&dir)?;
     let tol = super::map::scenario_num(&meta.scenario, "solver.tolerance", 1e-10);
-    Ok(map_report(&meta.spec, tol, &slices) + &written_list(&written))
+    Ok(map_report(&mm, &meta.spec, tol, &slices) + &written_list(&written))
 }

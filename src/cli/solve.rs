@@ -31,6 +31,11 @@ fn equilibrium_json(id: usize, e: &Equilibrium) -> serde_json::Value {
 /// Runs `solve`.
 pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
+    if sc.flag("seaice.enabled") {
+        return Err(CliError::Usage(
+            "`seaice.enabled` = true: solve finds annual-mean equilibria, which have no sea ice; use `icefold periodic` for the climates of the sea-ice model".into(),
+        ));
+    }
     let model = sc.model();
     let mut starts = standard_starts(
         model.len(),

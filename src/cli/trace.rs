@@ -159,6 +159,11 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
     };
     let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
     let seasonal = sc.flag("seasons.enabled");
+    if !seasonal && sc.flag("seaice.enabled") {
+        return Err(CliError::Usage(
+            "`seaice.enabled` = true needs `seasons.enabled` = true for trace (sea ice lives in the seasonal model; the annual-mean model has none)".into(),
+        ));
+    }
     let seasonal_opts = crate::analysis::periodic::SeasonalTraceOptions::default();
     let run = |from: f64,
                to: f64,

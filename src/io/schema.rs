@@ -308,7 +308,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Bool,
         default: "false",
         unit: "",
-        doc: "Trace the seasonal model (periodic climates) with `trace`; `periodic` and `run` always use it.",
+        doc: "Trace and map the seasonal model (periodic climates) with `trace` and `map`; `periodic` and `run` always use it.",
     },
     KeySpec {
         key: "seasons.mixed_layer_depth",
