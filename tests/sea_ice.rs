@@ -7,6 +7,8 @@
 //! enthalpy returns after one year, so the annual global mean of the net
 //! top-of-atmosphere flux plus F_b vanishes: conservation of energy).
 
+mod common;
+
 use icefold::analysis::periodic::{ShootingOptions, cycle, periodic_from, shoot};
 use icefold::io::scenario::Scenario;
 use icefold::model::seasonal::SeasonalModel;
@@ -313,8 +315,6 @@ fn sea_ice_removes_the_small_ice_cap_instability() {
 /// finds (the annual-mean one against an independent library trace).
 #[test]
 fn hierarchy_traces_three_models_side_by_side() {
-    #[path = "common/mod.rs"]
-    mod common;
     let dir = common::temp_dir("hierarchy");
     let out = dir.join("h");
     let (code, stdout, err) = common::icefold(&[
@@ -457,8 +457,6 @@ fn without_ice_the_sea_ice_model_is_the_seasonal_model() {
 /// one line, nothing written).
 #[test]
 fn annual_commands_refuse_sea_ice() {
-    #[path = "common/mod.rs"]
-    mod common;
     let dir = common::temp_dir("sea-ice-refusals");
     for args in [
         vec!["solve", SEA_ICE],
