@@ -3,11 +3,12 @@
 //! unknowns [`edgetrace`]), the jump at each fold by integration in time
 //! ([`jumps`]), regime maps over two parameters ([`sweep`]), folds continued
 //! in two parameters ([`foldcurve`]), periodic climates by shooting
-//! ([`periodic`]), every equilibrium of the linear step-albedo model
+//! ([`periodic`]) and sampled through their year ([`cycle`]), every equilibrium of the linear step-albedo model
 //! parametrised by its ice edge ([`skeleton`]), and how far each fold moves
 //! with every other parameter ([`sensitivity`]).
 
 pub mod branches;
+pub mod cycle;
 pub mod edgetrace;
 pub mod foldcurve;
 pub mod jumps;

@@ -9,7 +9,7 @@ use super::trace::parse_range;
 use crate::analysis::branches::{Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
 use crate::analysis::periodic::{SeasonalTraceOptions, trace_seasonal};
 use crate::io::export::{Cell, OutputSet, Table};
-use crate::io::plot::{self, BranchCurve, ModelCurves};
+use crate::io::plot::{self, ModelCurves};
 use crate::io::scenario::Scenario;
 
 /// The models of the hierarchy: (name in outputs, legend label, the
@@ -227,30 +227,7 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
         }));
         curves.push(ModelCurves {
             label: MODELS[k].1.into(),
-            branches: h
-                .branches
-                .iter()
-                .map(|b| BranchCurve {
-                    id: b.id,
-                    param: b.points.iter().map(|q| q.p).collect(),
-                    ice_edge_deg: b
-                        .points
-                        .iter()
-                        .map(|q| poleward_edge_deg(&q.diagnostics))
-                        .collect(),
-                    global_mean_c: b
-                        .points
-                        .iter()
-                        .map(|q| q.diagnostics.global_mean_c)
-                        .collect(),
-                    stable: b.points.iter().map(|q| q.unstable_modes == 0).collect(),
-                    state: b
-                        .points
-                        .iter()
-                        .map(|q| q.diagnostics.state.label().to_string())
-                        .collect(),
-                })
-                .collect(),
+            branches: super::trace::branch_curves(h),
         });
     }
     let fig = plot::hierarchy_figure(

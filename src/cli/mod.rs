@@ -12,6 +12,7 @@ pub mod progress;
 pub mod seasons;
 pub mod shard;
 pub mod solve;
+pub mod state;
 pub mod sun;
 pub mod trace;
 

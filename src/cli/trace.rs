@@ -644,12 +644,10 @@ fn folds_json(h: &Hysteresis, model: &crate::model::Model) -> serde_json::Value 
     serde_json::Value::Array(v)
 }
 
-fn hysteresis_figure(
-    h: &Hysteresis,
-    name: &str,
-) -> Result<plot::Figure, crate::io::export::ExportError> {
-    let branches: Vec<BranchCurve> = h
-        .branches
+/// The branches of `h` as figure curves (parameter, most poleward northern
+/// ice edge, global mean, stability, state per point).
+pub(super) fn branch_curves(h: &Hysteresis) -> Vec<BranchCurve> {
+    h.branches
         .iter()
         .map(|b| BranchCurve {
             id: b.id,
@@ -671,7 +669,14 @@ fn hysteresis_figure(
                 .map(|q| q.diagnostics.state.label().to_string())
                 .collect(),
         })
-        .collect();
+        .collect()
+}
+
+fn hysteresis_figure(
+    h: &Hysteresis,
+    name: &str,
+) -> Result<plot::Figure, crate::io::export::ExportError> {
+    let branches = branch_curves(h);
     let folds: Vec<FoldMark> = h
         .branches
         .iter()
