@@ -374,7 +374,8 @@ impl Model {
                 .map(|(w, &ti)| w * self.planet.albedo.ice_weight(ti).0)
                 .sum(),
         };
-        f.clamp(0.0, 1.0)
+        // (+ 0.0: an empty sum is -0.0, which would print as "-0")
+        f.clamp(0.0, 1.0) + 0.0
     }
 }
 
