@@ -396,17 +396,10 @@ impl SeasonalModel {
                     w.gp.fill(0.0);
                     unit.add_divergence(&m.grid, &m.conductance, &w.surface, &mut w.gp, None);
                 }
-                // G_E s
+                // G_E s (one column)
+                ge_times(&w.jac_a, cap, s, &mut w.ges, n, 1);
                 for i in 0..n {
-                    let mut ge = w.jac_a.diag[i] / cap[i] * s[i];
-                    if i > 0 {
-                        ge += w.jac_a.lower[i] / cap[i - 1] * s[i - 1];
-                    }
-                    if i + 1 < n {
-                        ge += w.jac_a.upper[i] / cap[i + 1] * s[i + 1];
-                    }
-                    w.ges[i] = ge;
-                    w.dt_vec[i] = -(w.rho[i] * s[i] - w.c[i] * (ge + w.gp[i]));
+                    w.dt_vec[i] = -(w.rho[i] * s[i] - w.c[i] * (w.ges[i] + w.gp[i]));
                 }
                 w.rt.solve(&mut w.dt_vec);
                 for i in 0..n {
@@ -425,7 +418,7 @@ impl SeasonalModel {
             w.y.resize(n * n, 0.0);
             w.x.resize(n * n, 0.0);
             // G_E B into x (scratch), then Y = diag ρ B - diag c (G_E B)
-            ge_times(&w.jac_a, cap, monodromy, &mut w.x, n);
+            ge_times(&w.jac_a, cap, monodromy, &mut w.x, n, n);
             for i in 0..n {
                 let (rho, c) = (w.rho[i], w.c[i]);
                 for col in 0..n {
@@ -474,8 +467,9 @@ pub fn sea_ice_exact(p: Param) -> bool {
 }
 
 /// out = G_E B for the tridiagonal ∂(a S)/∂θ `ja` with θ = E/c_w (column j
-/// scaled by 1/c_w(j)), B row-major n x n.
-fn ge_times(ja: &Tridiagonal, cap: &[f64], b: &[f64], out: &mut [f64], n: usize) {
+/// scaled by 1/c_w(j)), B row-major n x `w` (the monodromy's n columns, or
+/// the one column of a parameter sensitivity).
+fn ge_times(ja: &Tridiagonal, cap: &[f64], b: &[f64], out: &mut [f64], n: usize, w: usize) {
     for i in 0..n {
         let lo = if i > 0 { ja.lower[i] / cap[i - 1] } else { 0.0 };
         let di = ja.diag[i] / cap[i];
@@ -484,15 +478,15 @@ fn ge_times(ja: &Tridiagonal, cap: &[f64], b: &[f64], out: &mut [f64], n: usize)
         } else {
             0.0
         };
-        for col in 0..n {
-            let mut v = di * b[i * n + col];
+        for col in 0..w {
+            let mut v = di * b[i * w + col];
             if i > 0 {
-                v += lo * b[(i - 1) * n + col];
+                v += lo * b[(i - 1) * w + col];
             }
             if i + 1 < n {
-                v += up * b[(i + 1) * n + col];
+                v += up * b[(i + 1) * w + col];
             }
-            out[i * n + col] = v;
+            out[i * w + col] = v;
         }
     }
 }
