@@ -275,6 +275,26 @@ impl Model {
         self.rebuild_albedo();
     }
 
+    /// The half-band integrals (∫ S/S0 (1 - α_open), ∫ S/S0 (1 - α_ice),
+    /// ∫ S/S0, over each half-band) of the insolation now held.
+    pub(crate) fn half_integrals(&self) -> impl Iterator<Item = [f64; 3]> + '_ {
+        self.half.iter().map(|h| [h.open, h.ice, h.insolation])
+    }
+
+    /// [`Model::set_unit_insolation`] with the half-band integrals already
+    /// known (from [`Model::half_integrals`] under the same samples and
+    /// albedo): the same state, without the quadrature.
+    pub(crate) fn set_unit_insolation_with(
+        &mut self,
+        samples: &[[f64; 3]],
+        integrals: &[[f64; 3]],
+    ) {
+        for ((h, s), i) in self.half.iter_mut().zip(samples).zip(integrals) {
+            h.s = *s;
+            [h.open, h.ice, h.insolation] = *i;
+        }
+    }
+
     /// Restores the annual-mean insolation of the planet's orbit.
     pub fn restore_annual_insolation(&mut self) {
         self.rebuild_insolation();

@@ -372,8 +372,13 @@ impl SeasonalModel {
         for i in 0..n {
             monodromy[i * n + i] = 1.0;
         }
+        self.year_mean.fill(0.0);
+        let steps = self.steps_per_year() as f64;
         for k in 0..self.steps_per_year() {
             self.step_sea_ice(k, e)?;
+            for (m, x) in self.year_mean.iter_mut().zip(e.iter()) {
+                *m += x / steps;
+            }
             let mut w = self.sea_ice.take().expect("sea ice");
             if let Some((p, s)) = sensitivity.as_mut() {
                 // the extra column: x_s = -R_T⁻¹ (r_E s - c g_p),

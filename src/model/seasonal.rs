@@ -180,6 +180,13 @@ pub struct SeasonalModel {
     dfdp: Vec<f64>,
     scratch: Vec<f64>,
     batch: BatchLu,
+    /// Per step and half-band, the albedo integrals of the step's
+    /// insolation ([`Model::half_integrals`]), so a step does not redo the
+    /// quadrature.
+    integrals: Vec<[f64; 3]>,
+    /// The year mean of the state over the steps of the last
+    /// [`SeasonalModel::year_with_jacobian`] (each step's end state / N).
+    pub(crate) year_mean: Vec<f64>,
     /// Newton on each implicit step stops when
     /// max |Tⁿ⁺¹ - Tⁿ - Δt F(Tⁿ⁺¹)/C| is below this, K (default 1e-13).
     pub step_tolerance: f64,
@@ -227,7 +234,7 @@ impl SeasonalModel {
         let tables = insolation_tables(&model, steps_per_year);
         let halves = 2 * n;
         let ws = Workspace::new(&model);
-        Ok(SeasonalModel {
+        let mut sm = SeasonalModel {
             model,
             steps: steps_per_year,
             halves,
@@ -237,10 +244,25 @@ impl SeasonalModel {
             dfdp: vec![0.0; n],
             scratch: vec![0.0; n],
             batch: BatchLu::default(),
+            integrals: Vec::new(),
+            year_mean: vec![0.0; n],
             step_tolerance: 1e-13,
             max_step_iterations: 30,
             sea_ice: None,
-        })
+        };
+        sm.rebuild_integrals();
+        Ok(sm)
+    }
+
+    /// Recomputes the per-step albedo integrals (after the tables or the
+    /// albedo changed); leaves the model holding the last step's insolation.
+    fn rebuild_integrals(&mut self) {
+        self.integrals.clear();
+        for k in 0..self.steps {
+            let range = k * self.halves..(k + 1) * self.halves;
+            self.model.set_unit_insolation(&self.tables[range]);
+            self.integrals.extend(self.model.half_integrals());
+        }
     }
 
     /// [`SeasonalModel::new`] with the sea-ice thermodynamics of Wagner &
@@ -310,13 +332,17 @@ impl SeasonalModel {
         if moves_insolation(p) {
             self.tables = insolation_tables(&self.model, self.steps);
         }
+        if moves_insolation(p) || matches!(p, Param::IceAlbedo | Param::OpenAlbedo) {
+            self.rebuild_integrals();
+        }
     }
 
     /// Feeds the insolation of step k to the model.
     pub fn use_step_insolation(&mut self, k: usize) {
         let k = k % self.steps;
         let range = k * self.halves..(k + 1) * self.halves;
-        self.model.set_unit_insolation(&self.tables[range]);
+        self.model
+            .set_unit_insolation_with(&self.tables[range.clone()], &self.integrals[range]);
     }
 
     /// One backward-Euler step k (year fraction k/N to (k+1)/N) of
@@ -454,8 +480,13 @@ impl SeasonalModel {
         for i in 0..n {
             b[i * w + i] = 1.0;
         }
+        self.year_mean.fill(0.0);
+        let steps = self.steps as f64;
         for k in 0..self.steps {
             self.step(k, t, false)?;
+            for (m, x) in self.year_mean.iter_mut().zip(t.iter()) {
+                *m += x / steps;
+            }
             // self.ws.jac holds J - C/Δt at Tⁿ⁺¹ (not factored)
             if let Some((p, _)) = sensitivity.as_ref() {
                 self.model
@@ -488,6 +519,14 @@ impl SeasonalModel {
             }
         }
         Ok(())
+    }
+
+    /// The year mean of the state over the steps of the last
+    /// [`SeasonalModel::year_with_jacobian`]: Σ_k u_k / N, u_k the state
+    /// at the end of step k (accumulated in step order, so it equals the
+    /// same sum taken with [`SeasonalModel::year_with`]).
+    pub fn year_mean(&self) -> &[f64] {
+        &self.year_mean
     }
 
     /// Global mean of the net top-of-atmosphere flux S(1 - α) - OLR of
@@ -527,5 +566,58 @@ mod tests {
         assert!(SeasonalModel::new(m.clone(), 12).is_err());
         m.planet.heat_capacity[3] = f64::NAN;
         assert!(SeasonalModel::new(m, 12).is_err());
+    }
+
+    /// The cached per-step albedo integrals are the quadrature redone at
+    /// the step (bit for bit, also after an albedo or obliquity change),
+    /// and the year mean kept by the Jacobian year is the one summed
+    /// step by step by `year_with` (the continuation's ice labels rely on
+    /// both). Common practice, no source.
+    #[test]
+    fn cached_step_integrals_and_year_mean_match_a_fresh_evaluation() {
+        let sc = Scenario::load(
+            None,
+            &[
+                "seasons.enabled=true".into(),
+                "grid.bands=24".into(),
+                "seasons.steps_per_year=12".into(),
+            ],
+        )
+        .unwrap();
+        let mut sm = sc.seasonal_model().unwrap();
+        for (p, v) in [
+            (None, 0.0),
+            (Some(Param::IceAlbedo), 0.55),
+            (Some(Param::Obliquity), 40.0),
+        ] {
+            if let Some(p) = p {
+                sm.set_param(p, v);
+            }
+            for k in 0..sm.steps_per_year() {
+                sm.use_step_insolation(k);
+                let cached: Vec<[f64; 3]> = sm.model.half_integrals().collect();
+                let mut fresh = sm.model.clone();
+                fresh.set_unit_insolation(sm.table(k));
+                let redone: Vec<[f64; 3]> = fresh.half_integrals().collect();
+                assert_eq!(cached, redone, "step {k} after {p:?}");
+            }
+        }
+        let n = sm.len();
+        let mut a = vec![5.0; n];
+        let mut b = a.clone();
+        let mut m = vec![0.0; n * n];
+        sm.year_with_jacobian(&mut a, &mut m, None).unwrap();
+        let steps = sm.steps_per_year() as f64;
+        let mut mean = vec![0.0; n];
+        sm.year_with(&mut b, &mut |_, _, s| {
+            for i in 0..n {
+                mean[i] += s[i] / steps;
+            }
+        })
+        .unwrap();
+        assert_eq!(a, b);
+        assert_eq!(sm.year_mean(), mean.as_slice());
+        // not a constant: the mean differs from the end state
+        assert!(mean.iter().zip(&a).any(|(x, y)| (x - y).abs() > 1e-3));
     }
 }

@@ -144,6 +144,16 @@ impl Model {
         let (ta, tb) = (t[a], t[b]);
         let ts = self.planet.albedo.threshold;
         let h = &self.half[k];
+        // a half-band between its two centres, with both clear of T_s:
+        // the answer of the interpolation below, without its divisions
+        if h.lo >= xa.min(xb) && h.hi <= xa.max(xb) {
+            if ta.min(tb) > ts + 1e-9 {
+                return HalfIce::Open;
+            }
+            if ta.max(tb) < ts - 1e-9 {
+                return HalfIce::Ice;
+            }
+        }
         let slope = (tb - ta) / (xb - xa);
         let t_lo = ta + slope * (h.lo - xa);
         let t_hi = ta + slope * (h.hi - xa);
