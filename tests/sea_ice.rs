@@ -347,6 +347,19 @@ fn hierarchy_traces_three_models_side_by_side() {
         assert!(out.join(f).exists(), "{f}");
     }
     let table = std::fs::read_to_string(out.join("hierarchy.csv")).unwrap();
+    // every point carries its habitable fraction, an area fraction in [0, 1]
+    let header: Vec<&str> = table.lines().next().unwrap().split(',').collect();
+    let col = header
+        .iter()
+        .position(|h| *h == "habitable_fraction")
+        .expect("a habitable_fraction column");
+    let fractions: Vec<f64> = table
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').nth(col).unwrap().parse().unwrap())
+        .collect();
+    assert!(fractions.iter().all(|f| (0.0..=1.0).contains(f)));
+    assert!(fractions.iter().any(|f| *f > 0.0) && fractions.iter().any(|f| *f < 1.0));
     for m in ["annual-mean", "seasonal", "seasonal-sea-ice"] {
         assert!(
             table.lines().any(|l| l.starts_with(&format!("{m},"))),

@@ -143,6 +143,7 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
         "stable",
         "unstable_modes",
         "residual",
+        "habitable_fraction",
     ]);
     let mut folds = Table::new(&[
         "model",
@@ -172,8 +173,9 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
                     Cell::Num(poleward_edge_deg(d)),
                     Cell::Text(d.state.label().into()),
                     Cell::Bool(q.unstable_modes == 0),
-                    Cell::Int(q.unstable_modes as i64),
+                    Cell::modes(q.unstable_modes),
                     Cell::Num(q.residual),
+                    Cell::Num(d.habitable_fraction),
                 ]);
             }
             for f in &b.folds {

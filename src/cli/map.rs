@@ -420,7 +420,7 @@ pub(super) fn render(
                 Cell::Num(q.value),
                 Cell::Text(q.state.clone()),
                 Cell::Bool(q.unstable_modes == 0),
-                Cell::Int(q.unstable_modes as i64),
+                Cell::modes(q.unstable_modes),
                 Cell::Num(q.global_mean_c),
                 Cell::Num(q.ice_area_fraction),
                 Cell::Text(edges.join(";")),

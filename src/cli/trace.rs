@@ -515,7 +515,7 @@ fn branches_table(h: &Hysteresis) -> Table {
                 Cell::Num(poleward_edge_deg(d)),
                 Cell::Text(d.state.label().into()),
                 Cell::Bool(q.unstable_modes == 0),
-                Cell::Int(q.unstable_modes as i64),
+                Cell::modes(q.unstable_modes),
                 Cell::Num(q.residual),
                 Cell::Num(d.habitable_fraction),
             ]);

@@ -190,6 +190,18 @@ pub enum Cell {
     Bool(bool),
 }
 
+impl Cell {
+    /// A count of unstable modes; an empty cell where the stability could
+    /// not be decided (the eigenvalue solve failed: `usize::MAX`).
+    pub fn modes(n: usize) -> Cell {
+        if n == usize::MAX {
+            Cell::Text(String::new())
+        } else {
+            Cell::Int(i64::try_from(n).unwrap_or(i64::MAX))
+        }
+    }
+}
+
 impl From<f64> for Cell {
     fn from(v: f64) -> Self {
         Cell::Num(v)
