@@ -7,6 +7,13 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 python3 -m pip install --quiet --disable-pip-version-check -r python/requirements-test.txt
+# the Python front (pyproject.toml: maturin builds pyfront/ into the abi3
+# wheel of the module `icefold`; the same wheel `pip install .` would build),
+# installed here and, by python/tests/test_front.py, into a fresh venv
+rm -rf target/wheels
+python3 -m maturin build --release --quiet -o target/wheels
+python3 -m pip install --quiet --disable-pip-version-check --root-user-action=ignore \
+    --force-reinstall --no-deps target/wheels/icefold-*.whl
 cargo build --release
 cargo test --release
 python3 -m pytest -q python/tests

@@ -1,7 +1,7 @@
 //! What every command shares: the parsed options, errors and exit codes,
 //! loading the scenario, provenance, start profiles and reporting.
 
-use crate::io::export::ExportError;
+use crate::io::export::{ExportError, OutputSet};
 use crate::io::scenario::{Scenario, ScenarioError};
 use crate::model::Model;
 use crate::model::climate::Start;
@@ -75,10 +75,47 @@ pub struct Args {
     pub fold_curves: bool,
     /// `--hierarchy` (trace).
     pub hierarchy: bool,
+    /// Skip the figures (the library front: tables and summaries only).
+    pub no_figures: bool,
+    /// Keep the outputs in memory instead of publishing them into `--out`
+    /// (the Python front): [`publish`] fills it with (file name, bytes).
+    pub capture: Option<Capture>,
+    /// Set from outside (the Python front, on Ctrl-C) to stop the command
+    /// at its next check ([`cancelled`]): it then fails with
+    /// "interrupted" and writes nothing.
+    pub cancel: Option<std::sync::Arc<std::sync::atomic::AtomicBool>>,
     /// Further positional arguments (merge: shard directories).
     pub rest: Vec<PathBuf>,
     /// The command line as given (provenance).
     pub line: String,
+}
+
+/// Where a captured command leaves its outputs: (file name inside the
+/// output directory, bytes), in staging order.
+pub type Capture = std::sync::Arc<std::sync::Mutex<Vec<(String, Vec<u8>)>>>;
+
+/// Publishes a command's outputs into `dir` all together
+/// ([`OutputSet::publish`]), or, for a captured run, hands them over in
+/// memory and writes nothing. Returns the paths (would-be paths when
+/// captured).
+pub fn publish(out: OutputSet, dir: &Path, args: &Args) -> Result<Vec<PathBuf>, CliError> {
+    let Some(capture) = &args.capture else {
+        return Ok(out.publish(dir)?);
+    };
+    let files = out.into_files(dir)?;
+    let paths = files.iter().map(|(name, _)| dir.join(name)).collect();
+    let mut held = capture
+        .lock()
+        .map_err(|_| CliError::Failed("the capture of the outputs was poisoned".into()))?;
+    *held = files;
+    Ok(paths)
+}
+
+/// Whether the run was asked to stop ([`Args::cancel`]).
+pub fn cancelled(args: &Args) -> bool {
+    args.cancel
+        .as_ref()
+        .is_some_and(|c| c.load(std::sync::atomic::Ordering::Relaxed))
 }
 
 /// Loads the scenario named on the command line with its overrides.

@@ -232,11 +232,15 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
             branches: super::trace::branch_curves(h),
         });
     }
-    let fig = plot::hierarchy_figure(
-        &format!("Branches of climates in the model hierarchy: {}", sc.name()),
-        key,
-        &curves,
-    )?;
+    let fig = if args.no_figures {
+        None
+    } else {
+        Some(plot::hierarchy_figure(
+            &format!("Branches of climates in the model hierarchy: {}", sc.name()),
+            key,
+            &curves,
+        )?)
+    };
     let dir = out_dir(args);
     let mut out = OutputSet::new();
     out.add_table(dir.join("hierarchy.csv"), &points)?;
@@ -247,10 +251,12 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     summary.insert("models".into(), per_model.into());
     summary.insert("ocean_heat_flux_as_forcing_wm2".into(), fb.into());
     out.add_json(dir.join("summary.json"), &summary);
-    out.add(dir.join("hierarchy.svg"), fig.svg);
-    out.add(dir.join("hierarchy.png"), fig.png);
+    if let Some(fig) = fig {
+        out.add(dir.join("hierarchy.svg"), fig.svg);
+        out.add(dir.join("hierarchy.png"), fig.png);
+    }
     out.add_text(dir.join("scenario.toml"), &base);
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     Ok(text + &written_list(&written))
 }
 

@@ -237,17 +237,22 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         sc.num("solver.cold_start"),
         sc.num("solver.tolerance"),
     );
-    let slices: Vec<Slice> = pool.install(|| {
+    // a cancelled run (Args::cancel) stops between slices
+    let slices: Option<Vec<Slice>> = pool.install(|| {
         indices
             .par_iter()
             .map(|&j| {
+                if super::context::cancelled(args) {
+                    return None;
+                }
                 let s = mm.slice(&spec, across, vary, j, warm, cold, tol);
                 bar.inc();
-                s
+                Some(s)
             })
             .collect()
     });
     bar.finish();
+    let slices = slices.ok_or_else(|| CliError::Failed("interrupted; nothing written".into()))?;
     let dir = args
         .out
         .clone()
@@ -266,7 +271,11 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         };
         let text = serde_json::to_string(&file).map_err(|e| CliError::Failed(e.to_string()))?;
         out.add_text(dir.join(format!("shard-{k}-of-{n}.json")), &text);
-        let written = out.commit()?;
+        let written = if args.capture.is_some() {
+            super::context::publish(out, &dir, args)?
+        } else {
+            out.commit()?
+        };
         return Ok(format!(
             "map shard {k}/{n} ({} model): {} slices\n{}",
             mm.name(),
@@ -283,8 +292,9 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         &slices,
         &dir,
         &mut out,
+        !args.no_figures,
     )?;
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     Ok(map_report(&mm, &spec, tol, &slices) + &written_list(&written))
 }
 
@@ -380,6 +390,7 @@ pub(super) fn render(
     slices: &[Slice],
     dir: &Path,
     out: &mut OutputSet,
+    figures: bool,
 ) -> Result<(), CliError> {
     let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
     // a slice with no branch traced failed: it is not "no stable climate"
@@ -531,9 +542,11 @@ pub(super) fn render(
             slices.len()
         )
     };
-    let fig = plot::regime_figure(&title, &map)?;
-    out.add(dir.join("map.svg"), fig.svg);
-    out.add(dir.join("map.png"), fig.png);
+    if figures {
+        let fig = plot::regime_figure(&title, &map)?;
+        out.add(dir.join("map.svg"), fig.svg);
+        out.add(dir.join("map.png"), fig.png);
+    }
     // summary
     let notes: Vec<serde_json::Value> = slices
         .iter()

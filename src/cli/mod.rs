@@ -23,7 +23,7 @@ pub fn run(args: &Args) -> Result<String, CliError> {
     // refuse an unusable --out before computing (the full check is made
     // again when the outputs are published)
     let writes = ["solve", "sun", "trace", "map", "merge", "run", "periodic"];
-    if writes.contains(&args.command.as_str()) {
+    if writes.contains(&args.command.as_str()) && args.capture.is_none() {
         let dir = match (&args.out, args.command.as_str()) {
             (Some(d), _) => d.clone(),
             (None, "merge") => std::path::PathBuf::from("out").join("map"),

@@ -186,7 +186,7 @@ pub fn cmd_run(args: &Args, years: usize, from: Option<&str>) -> Result<String, 
     out.add_json(dir.join("state.json"), &state_meta(&sc, &sm));
     out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     let mut s = format!(
         "{}: {years} years from {} ({steps} steps per year): global mean {:.3} C, ice fraction {:.4}, last year's largest change {:.3e} {change_unit}\n",
         sc.name(),
@@ -656,24 +656,26 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             }
         }
         let d = cycle_diagnostics(&annual_model, c);
-        let fig = plot::field_figure(
-            &format!(
-                "Periodic climate {} ({}): {}",
-                e + 1,
-                d.state.label().replace('-', " "),
-                sc.name()
-            ),
-            plot::labels::DAY_OF_YEAR,
-            plot::labels::LATITUDE,
-            plot::labels::TEMPERATURE,
-            &days,
-            &lat,
-            &field,
-            &edge_lines(c),
-            "ice edge",
-        )?;
-        out.add(dir.join(format!("seasonal_cycle_{}.svg", e + 1)), fig.svg);
-        out.add(dir.join(format!("seasonal_cycle_{}.png", e + 1)), fig.png);
+        if !args.no_figures {
+            let fig = plot::field_figure(
+                &format!(
+                    "Periodic climate {} ({}): {}",
+                    e + 1,
+                    d.state.label().replace('-', " "),
+                    sc.name()
+                ),
+                plot::labels::DAY_OF_YEAR,
+                plot::labels::LATITUDE,
+                plot::labels::TEMPERATURE,
+                &days,
+                &lat,
+                &field,
+                &edge_lines(c),
+                "ice edge",
+            )?;
+            out.add(dir.join(format!("seasonal_cycle_{}.svg", e + 1)), fig.svg);
+            out.add(dir.join(format!("seasonal_cycle_{}.png", e + 1)), fig.png);
+        }
         let fl = annual_model.band_fluxes(&c.annual_mean);
         let albedo: Vec<f64> = fl
             .insolation
@@ -712,22 +714,24 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             .map(|(l, e)| serde_json::json!({"start": l, "reason": e.to_string()}))
             .collect(),
     );
-    let fig = plot::profile_figure(
-        &format!(
-            "Annual-mean profiles of the periodic climates: {}",
-            sc.name()
-        ),
-        &curves,
-    )?;
     out.add_table(dir.join("seasonal_cycle.csv"), &long)?;
     out.add_netcdf(dir.join("seasonal_cycle.nc"), nc)?;
     out.add_table(dir.join("annual_mean.csv"), &annual)?;
     out.add_table(dir.join("ice_edges.csv"), &edges)?;
-    out.add(dir.join("profiles.svg"), fig.svg);
-    out.add(dir.join("profiles.png"), fig.png);
+    if !args.no_figures {
+        let fig = plot::profile_figure(
+            &format!(
+                "Annual-mean profiles of the periodic climates: {}",
+                sc.name()
+            ),
+            &curves,
+        )?;
+        out.add(dir.join("profiles.svg"), fig.svg);
+        out.add(dir.join("profiles.png"), fig.png);
+    }
     out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     let mut s = format!(
         "{}: {} periodic climates ({steps} steps per year)\n",
         sc.name(),

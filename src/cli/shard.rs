@@ -419,8 +419,9 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         &slices,
         &dir,
         &mut out,
+        !args.no_figures,
     )?;
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     let tol = super::map::scenario_num(&meta.scenario, "solver.tolerance", 1e-10);
     Ok(map_report(&mm, &meta.spec, tol, &slices) + &written_list(&written))
 }

@@ -127,13 +127,15 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
             .map(|(l, e)| serde_json::json!({"start": l, "reason": e.to_string()}))
             .collect(),
     );
-    let fig = plot::profile_figure(&format!("Equilibrium climates: {}", sc.name()), &curves)?;
     out.add_table(dir.join("profile.csv"), &table)?;
     out.add_json(dir.join("summary.json"), &summary);
-    out.add(dir.join("profiles.svg"), fig.svg);
-    out.add(dir.join("profiles.png"), fig.png);
+    if !args.no_figures {
+        let fig = plot::profile_figure(&format!("Equilibrium climates: {}", sc.name()), &curves)?;
+        out.add(dir.join("profiles.svg"), fig.svg);
+        out.add(dir.join("profiles.png"), fig.png);
+    }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     let mut s = format!("{}: {} equilibria\n", sc.name(), search.equilibria.len());
     s += "  #  state            global mean C  ice fraction  habitable  ice edges (deg N)  stable  iterations\n";
     for (k, e) in search.equilibria.iter().enumerate() {

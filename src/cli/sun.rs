@@ -27,24 +27,30 @@ pub fn cmd_sun(args: &Args) -> Result<String, CliError> {
     for (lat, x) in model.grid.latitudes_deg().iter().zip(&model.grid.centres) {
         annual.push_row(vec![Cell::Num(*lat), Cell::Num(ins.annual_mean(*x))]);
     }
-    let fig = plot::field_figure(
-        &format!("Daily-mean insolation: {}", sc.name()),
-        plot::labels::DAY_OF_YEAR,
-        plot::labels::LATITUDE,
-        plot::labels::INSOLATION,
-        &days,
-        &lats,
-        &field,
-        &[],
-        "",
-    )?;
+    let fig = if args.no_figures {
+        None
+    } else {
+        Some(plot::field_figure(
+            &format!("Daily-mean insolation: {}", sc.name()),
+            plot::labels::DAY_OF_YEAR,
+            plot::labels::LATITUDE,
+            plot::labels::INSOLATION,
+            &days,
+            &lats,
+            &field,
+            &[],
+            "",
+        )?)
+    };
     let mut out = OutputSet::new();
     out.add_table(dir.join("insolation.csv"), &table)?;
     out.add_table(dir.join("annual_insolation.csv"), &annual)?;
-    out.add(dir.join("insolation.svg"), fig.svg);
-    out.add(dir.join("insolation.png"), fig.png);
+    if let Some(fig) = fig {
+        out.add(dir.join("insolation.svg"), fig.svg);
+        out.add(dir.join("insolation.png"), fig.png);
+    }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     let g = &model.grid;
     let mean: f64 = g
         .weights

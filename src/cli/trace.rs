@@ -373,11 +373,13 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             open.join(", ")
         )
     };
-    let fig = hysteresis_figure(&h, &title)?;
-    out.add(dir.join("hysteresis.svg"), fig.svg);
-    out.add(dir.join("hysteresis.png"), fig.png);
+    if !args.no_figures {
+        let fig = hysteresis_figure(&h, &title)?;
+        out.add(dir.join("hysteresis.svg"), fig.svg);
+        out.add(dir.join("hysteresis.png"), fig.png);
+    }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
-    let written = out.publish(&dir)?;
+    let written = super::context::publish(out, &dir, args)?;
     let mut edge_text = String::new();
     if let Some(folds) = skeleton["folds"].as_array() {
         edge_text += "edge-family folds (ice edge as unknown; see summary.json edge_family):\n";

@@ -454,6 +454,33 @@ impl OutputSet {
         crate::io::publish::publish_dir(dir, files)
     }
 
+    /// The staged files in memory, named relative to `dir` (every staged
+    /// path must lie inside it, as for [`OutputSet::publish`]), NetCDF
+    /// files rendered to their bytes: nothing is written.
+    pub fn into_files(self, dir: &Path) -> Result<Vec<(String, Vec<u8>)>, ExportError> {
+        self.files
+            .into_iter()
+            .map(|(path, content)| {
+                let rel = path
+                    .strip_prefix(dir)
+                    .map_err(|_| ExportError::Refused {
+                        what: format!(
+                            "output `{}` is not inside --out `{}`",
+                            path.display(),
+                            dir.display()
+                        ),
+                    })?
+                    .to_string_lossy()
+                    .into_owned();
+                let bytes = match content {
+                    Content::Bytes(b) => b,
+                    Content::NetCdf(nc) => nc.to_bytes()?,
+                };
+                Ok((rel, bytes))
+            })
+            .collect()
+    }
+
     /// Write every staged file, all or nothing as far as the file system allows.
     ///
     /// First each file is written in full into a new temporary file in its

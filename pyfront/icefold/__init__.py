@@ -1,0 +1,373 @@
+"""icefold from Python: every equilibrium climate of a planet in a
+zonal-mean energy-balance model, as xarray Datasets.
+
+Each function runs the command of the same name exactly as the command
+line does (same scenario, validation, computation and tables) and returns
+its tables as an ``xarray.Dataset`` with CF-style names, units and
+attributes; the command's ``summary.json`` is in ``ds.attrs["summary"]``
+(a JSON string) and its printed report in ``ds.attrs["report"]``.
+``to_files(ds, out)`` writes exactly the files the command writes.
+
+Scenarios: ``scenario`` is a path (or None for the built-in default);
+overrides use the dotted names of ``--set``, as a dict or as keyword
+arguments (``icefold.trace(**{"orbit.obliquity": 40})``).
+
+Errors: bad input raises ``ValueError`` with the command line's message
+(naming the field, its value and the allowed range); a failed computation
+raises ``icefold.ComputationError``; Ctrl-C interrupts a long call.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+import weakref
+from typing import Any, Dict, Iterable, List, Mapping, Optional, Tuple, Union
+
+import numpy as np
+import xarray as xr
+
+from ._native import ComputationError
+from ._native import publish as _publish
+from ._native import read_netcdf as _read_netcdf
+from ._native import run as _run
+from ._native import version as _version
+
+__all__ = [
+    "ComputationError",
+    "check",
+    "solve",
+    "trace",
+    "map",
+    "periodic",
+    "run",
+    "sun",
+    "to_files",
+    "__version__",
+]
+
+__version__ = _version()
+
+PathLike = Union[str, "os.PathLike[str]", None]
+
+# CF-style units of the columns the commands write, by name
+_UNITS = {
+    "latitude_deg": ("degrees_north", "latitude"),
+    "global_mean_temperature_c": ("degC", None),
+    "temperature_c": ("degC", None),
+    "ice_area_fraction": ("1", None),
+    "habitable_fraction": ("1", None),
+    "ice_edge_north_deg": ("degrees_north", None),
+    "ice_edge_south_deg": ("degrees_north", None),
+    "ice_edge_deg": ("degrees_north", None),
+    "residual": (None, None),
+    "residual_wm2": ("W m-2", None),
+    "residual_k": ("K", None),
+    "jump_time_yr": ("year", None),
+    "orbit.flux": ("W m-2", None),
+    "orbit.obliquity": ("degree", None),
+    "radiation.co2_ppm": ("1e-6", None),
+    "radiation.forcing": ("W m-2", None),
+    "insolation_wm2": ("W m-2", None),
+}
+
+
+def _value(v: Any) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, (int, float, np.integer, np.floating)):
+        return repr(float(v)) if isinstance(v, (float, np.floating)) else str(int(v))
+    return json.dumps(str(v))
+
+
+def _sets(sets: Optional[Mapping[str, Any]], overrides: Mapping[str, Any]) -> List[str]:
+    merged: Dict[str, Any] = dict(sets or {})
+    merged.update(overrides)
+    return [f"{k}={_value(v)}" for k, v in merged.items()]
+
+
+def _call(
+    command: str,
+    scenario: PathLike,
+    sets: Optional[Mapping[str, Any]],
+    overrides: Mapping[str, Any],
+    options: Iterable[Tuple[str, Any]] = (),
+    figures: bool = False,
+    progress: bool = False,
+) -> Tuple[str, Dict[str, bytes]]:
+    opts = [(k, _value(v) if not isinstance(v, str) else v) for k, v in options if v is not None]
+    opts = [(k, v.strip('"') if isinstance(v, str) else v) for k, v in opts]
+    path = None if scenario is None else os.fspath(scenario)
+    text, files = _run(
+        command, path, _sets(sets, overrides), opts, figures=figures, quiet=not progress
+    )
+    return text, dict(files)
+
+
+def _column(values: List[str]) -> np.ndarray:
+    """A CSV column as the narrowest array: bool, int64, float64 or str
+    (Python's float() of the shortest round-trip decimals: the doubles the
+    command held, bit for bit)."""
+    if values and all(v in ("true", "false") for v in values):
+        return np.array([v == "true" for v in values])
+    try:
+        return np.array([int(v) for v in values], dtype=np.int64)
+    except ValueError:
+        pass
+    try:
+        # an empty cell is a value that could not be computed
+        return np.array([float(v) if v != "" else np.nan for v in values], dtype=np.float64)
+    except ValueError:
+        return np.array(values, dtype=str)
+
+
+def _table(data: bytes) -> Tuple[List[str], Dict[str, np.ndarray]]:
+    rows = list(csv.reader(io.StringIO(data.decode())))
+    header, body = rows[0], rows[1:]
+    cols = {h: _column([r[i] for r in body]) for i, h in enumerate(header)}
+    return header, cols
+
+
+def _name(column: str) -> str:
+    # dotted scenario keys become valid variable names
+    return column.replace(".", "_")
+
+
+def _add(out: Dict[str, xr.Variable], dim: str, cols: Dict[str, np.ndarray], prefix: str = "") -> None:
+    for c, v in cols.items():
+        units, standard = _UNITS.get(c, (None, None))
+        attrs = {"long_name": c.replace("_", " ")}
+        if units:
+            attrs["units"] = units
+        if standard:
+            attrs["standard_name"] = standard
+        out[prefix + _name(c)] = xr.Variable((dim,), v, attrs)
+
+
+def _netcdf(data: bytes) -> xr.Dataset:
+    """A NetCDF-3 file a command wrote, decoded as xarray.open_dataset
+    decodes it (the _FillValue cells become NaN)."""
+    dims, variables, globals_ = _read_netcdf(data)
+    size = dict(dims)
+    out = {}
+    for name, vdims, code, values, attrs in variables:
+        shape = tuple(size[d] for d in vdims)
+        array = np.array(values, dtype=np.dtype(code)).reshape(shape)
+        out[name] = xr.Variable(tuple(vdims), array, {k: _attr(v) for k, v in attrs})
+    ds = xr.Dataset(out, attrs={k: _attr(v) for k, v in globals_})
+    return xr.decode_cf(ds)
+
+
+def _attr(v: Any) -> Any:
+    if isinstance(v, list):
+        return v[0] if len(v) == 1 else np.array(v)
+    return v
+
+
+def _dataset(
+    command: str,
+    text: str,
+    files: Dict[str, bytes],
+    tables: Dict[str, str],
+    grid: Optional[str] = None,
+) -> xr.Dataset:
+    """tables: file name -> dimension name; grid: a NetCDF file of the
+    command whose variables (on their own dimensions) come first."""
+    variables: Dict[str, xr.Variable] = {}
+    for fname, dim in tables.items():
+        if fname in files:
+            _, cols = _table(files[fname])
+            # beside a grid every table is prefixed (its columns would
+            # otherwise collide with the grid's coordinates)
+            bare = grid is None and dim in ("point", "latitude")
+            _add(variables, dim, cols, "" if bare else f"{dim}_")
+    # one call (assigning variables one by one is slow)
+    grid_attrs: Dict[str, Any] = {}
+    if grid is not None and grid in files:
+        nc = _netcdf(files[grid])
+        grid_attrs = dict(nc.attrs)
+        ds = nc.assign(variables)
+    else:
+        ds = xr.Dataset(variables)
+    summary = files.get("summary.json")
+    ds.attrs = {f"file_{k}": v for k, v in grid_attrs.items()}
+    ds.attrs["title"] = f"icefold {command}"
+    ds.attrs["source"] = f"icefold {__version__}"
+    ds.attrs["Conventions"] = "CF-1.8"
+    ds.attrs["report"] = text
+    if summary is not None:
+        ds.attrs["summary"] = summary.decode()
+    if "scenario.toml" in files:
+        ds.attrs["scenario"] = files["scenario.toml"].decode()
+    ds.attrs["_icefold_command"] = command
+    _keep(ds, files)
+    return ds
+
+
+# the exact files of each returned Dataset, for to_files: kept while the
+# Dataset lives (a weak reference; the entry goes with the Dataset)
+_FILES: Dict[int, Tuple["weakref.ref[xr.Dataset]", Dict[str, bytes]]] = {}
+
+
+def _keep(ds: xr.Dataset, files: Dict[str, bytes]) -> None:
+    _FILES[id(ds)] = (weakref.ref(ds), files)
+    weakref.finalize(ds, _FILES.pop, id(ds), None)
+
+
+def to_files(ds: xr.Dataset, out: PathLike) -> List[str]:
+    """Writes into the directory ``out`` exactly the files the command that
+    made ``ds`` writes into ``--out`` (tables, summary, scenario, NetCDF;
+    the figures only if the call asked for them), published as the command
+    publishes them: all together or not at all, replacing an earlier
+    icefold output set there; a directory holding anything else is refused
+    (ValueError). Returns the paths written."""
+    entry = _FILES.get(id(ds))
+    if entry is None or entry[0]() is not ds:
+        raise ValueError("to_files: this Dataset was not returned by an icefold call")
+    return _publish(os.fspath(out), list(entry[1].items()))
+
+
+def check(scenario: PathLike = None, sets: Optional[Mapping[str, Any]] = None, **overrides: Any) -> str:
+    """Validates a scenario with its overrides; returns it as TOML with
+    every default filled in. Raises ValueError naming a bad field."""
+    text, _ = _call("check", scenario, sets, overrides)
+    return text
+
+
+def solve(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    figures: bool = False,
+    **overrides: Any,
+) -> xr.Dataset:
+    """Every equilibrium from the standard starts (``icefold solve``):
+    ``profile.csv`` along ``point`` (one row per equilibrium and band)."""
+    text, files = _call("solve", scenario, sets, overrides, figures=figures)
+    return _dataset("solve", text, files, {"profile.csv": "point"})
+
+
+def trace(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    vary: Optional[str] = None,
+    start: Optional[float] = None,
+    stop: Optional[float] = None,
+    hierarchy: bool = False,
+    figures: bool = False,
+    progress: bool = False,
+    **overrides: Any,
+) -> xr.Dataset:
+    """Every branch of equilibria in one parameter (``icefold trace``):
+    the branch points along ``point`` with the traced parameter (e.g.
+    ``orbit_flux``) as coordinate, the folds along ``fold`` (variables
+    ``fold_*``); bistable windows and branch ends in ``attrs["summary"]``.
+    ``start``/``stop`` are ``--from``/``--to``."""
+    opts = [("vary", vary), ("from", start), ("to", stop)]
+    if hierarchy:
+        opts.append(("hierarchy", "true"))
+    text, files = _call("trace", scenario, sets, overrides, opts, figures, progress)
+    tables = (
+        {"hierarchy.csv": "point", "hierarchy_folds.csv": "fold"}
+        if hierarchy
+        else {"branches.csv": "point", "folds.csv": "fold"}
+    )
+    ds = _dataset("trace", text, files, tables)
+    key = json.loads(ds.attrs["summary"])["vary"]
+    if _name(key) in ds:
+        ds = ds.set_coords(_name(key))
+        _keep(ds, files)
+    ds.attrs["vary"] = key
+    return ds
+
+
+def map(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    across: Optional[str] = None,
+    vary: Optional[str] = None,
+    start: Optional[float] = None,
+    stop: Optional[float] = None,
+    cells: Optional[int] = None,
+    threads: Optional[int] = None,
+    fold_curves: bool = False,
+    figures: bool = False,
+    progress: bool = False,
+    **overrides: Any,
+) -> xr.Dataset:
+    """A regime map (``icefold map``): the variables of ``map.nc`` on the
+    (across, vary) grid (regime flag mask and count of stable climates per
+    cell, each climate's state, temperature, ice edges and habitable
+    fraction; its global attributes as ``file_*`` attributes), plus
+    ``map.csv`` along ``point`` (variables ``point_*``) and the joined
+    fold curves along ``boundary`` (``boundary_*``). ``across`` is ``KEY=FROM:TO:COUNT``."""
+    opts = [
+        ("across", across),
+        ("vary", vary),
+        ("from", start),
+        ("to", stop),
+        ("cells", cells),
+        ("threads", threads),
+    ]
+    if fold_curves:
+        opts.append(("fold-curves", "true"))
+    text, files = _call("map", scenario, sets, overrides, opts, figures, progress)
+    return _dataset(
+        "map", text, files, {"map.csv": "point", "boundaries.csv": "boundary"}, grid="map.nc"
+    )
+
+
+def periodic(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    figures: bool = False,
+    **overrides: Any,
+) -> xr.Dataset:
+    """Every periodic seasonal climate (``icefold periodic``): the
+    variables of ``seasonal_cycle.nc`` (temperature, ice and means by day
+    and latitude), the annual means along ``point`` (``point_*``), the
+    seasonal cycle as a table along ``sample`` (``sample_*``), the ice
+    edges along ``edge`` (``edge_*``)."""
+    text, files = _call("periodic", scenario, sets, overrides, figures=figures)
+    return _dataset(
+        "periodic",
+        text,
+        files,
+        {"annual_mean.csv": "point", "seasonal_cycle.csv": "sample", "ice_edges.csv": "edge"},
+        grid="seasonal_cycle.nc",
+    )
+
+
+def run(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    years: int = 10,
+    start: Optional[str] = None,
+    **overrides: Any,
+) -> xr.Dataset:
+    """Time integration of the seasonal model (``icefold run``): the time
+    series along ``time`` and the final state along ``band``."""
+    opts = [("years", years), ("start", start)]
+    text, files = _call("run", scenario, sets, overrides, opts)
+    return _dataset("run", text, files, {"timeseries.csv": "time", "state.csv": "band"})
+
+
+def sun(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    figures: bool = False,
+    **overrides: Any,
+) -> xr.Dataset:
+    """Daily-mean insolation over the year (``icefold sun``): along
+    ``sample``; the annual mean along ``latitude``."""
+    text, files = _call("sun", scenario, sets, overrides, figures=figures)
+    return _dataset(
+        "sun", text, files, {"insolation.csv": "sample", "annual_insolation.csv": "latitude"}
+    )
