@@ -281,6 +281,13 @@ impl Scenario {
                 });
             }
         }
+        if self.flag("seaice.enabled") && self.text("transport.kind") == "moist" {
+            return Err(ScenarioError::OutOfRange {
+                key: "transport.kind".into(),
+                value: "\"moist\"".into(),
+                allowed: "\"diffusive\" when seaice.enabled = true (the sea-ice model holds the dry diffusive convergence)".into(),
+            });
+        }
         if self.flag("seasons.enabled") && self.flag("grid.symmetric") {
             return Err(ScenarioError::OutOfRange {
                 key: "grid.symmetric".into(),
@@ -440,14 +447,20 @@ impl Scenario {
                 b: self.num("radiation.b"),
             }
         };
-        let transport = if self.text("transport.kind") == "relaxation" {
-            Transport::Relaxation {
+        let transport = match self.text("transport.kind") {
+            "relaxation" => Transport::Relaxation {
                 rate: self.num("transport.relaxation"),
-            }
-        } else {
-            Transport::Diffusive {
+            },
+            "moist" => Transport::Moist {
                 diffusivity: self.num("transport.diffusivity"),
-            }
+                air: crate::physics::humidity::MoistAir {
+                    relative_humidity: self.num("transport.relative_humidity"),
+                    pressure_hpa: self.num("transport.surface_pressure"),
+                },
+            },
+            _ => Transport::Diffusive {
+                diffusivity: self.num("transport.diffusivity"),
+            },
         };
         let f_land = self.num("seasons.land_fraction");
         let c = f_land * self.num("seasons.land_heat_capacity")

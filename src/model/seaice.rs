@@ -138,10 +138,15 @@ impl SeasonalModel {
     /// smooth albedo, an aquaplanet (no land).
     pub(crate) fn check_sea_ice(&self, ice: &SeaIce) -> Result<(), SeasonalError> {
         let m = self.model();
-        if !matches!(m.planet.transport, Transport::Diffusive { .. }) {
-            return Err(SeasonalError::Invalid(
-                "sea ice needs transport.kind = \"diffusive\" (the surface balance holds the diffusive convergence)".into(),
-            ));
+        let kind = match m.planet.transport {
+            Transport::Diffusive { .. } => None,
+            Transport::Relaxation { .. } => Some("relaxation"),
+            Transport::Moist { .. } => Some("moist"),
+        };
+        if let Some(kind) = kind {
+            return Err(SeasonalError::Invalid(format!(
+                "`transport.kind` = \"{kind}\": sea ice needs \"diffusive\" (the surface balance holds the dry diffusive convergence)"
+            )));
         }
         let ok = |x: f64| x.is_finite() && x > 0.0;
         if !ok(ice.conductivity) || !ok(ice.latent_heat) || !ice.ocean_heat_flux.is_finite() {
