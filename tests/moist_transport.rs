@@ -6,6 +6,7 @@ mod common;
 
 use common::{icefold, temp_dir};
 use icefold::analysis::branches::{Hysteresis, TraceOptions, trace_all};
+use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
 use icefold::numerics::newton::{NewtonOptions, Workspace, newton};
 use icefold::physics::humidity::saturation_vapour_pressure;
@@ -357,7 +358,7 @@ fn moist_trace_changes_stability_only_at_folds() {
 #[test]
 fn bad_moist_input_exits_2() {
     let d = temp_dir("moist-bad");
-    let cases: [(&[&str], &str); 4] = [
+    let cases: [(&[&str], &str); 5] = [
         (
             &["--set", "transport.relative_humidity=1.5"],
             "`transport.relative_humidity` = 1.5",
@@ -375,9 +376,18 @@ fn bad_moist_input_exits_2() {
             ],
             "`transport.kind` = \"moist\"",
         ),
+        (
+            &["scenarios/moist.toml", "--hierarchy"],
+            "`transport.kind` = \"moist\"",
+        ),
     ];
     for (args, expect) in cases {
-        let mut a = vec!["solve"];
+        let cmd = if args.contains(&"--hierarchy") {
+            "trace"
+        } else {
+            "solve"
+        };
+        let mut a = vec![cmd];
         a.extend_from_slice(args);
         a.extend(["--out", d.to_str().unwrap()]);
         let (code, _, stderr) = icefold(&a);
@@ -412,5 +422,68 @@ fn moist_demo_solves_and_traces() {
             }
         }
         let _ = std::fs::remove_dir_all(&d);
+    }
+}
+
+/// The seasonal model with moist transport: the exact derivative of the
+/// annual map (product of the step derivatives) and its sensitivity in D
+/// against central differences of the map (common practice, no source),
+/// with the smooth albedo so the map is differentiable everywhere.
+#[test]
+fn moist_annual_map_jacobian_matches_finite_differences() {
+    let sets: Vec<String> = [
+        "transport.kind=\"moist\"",
+        "grid.bands=24",
+        "seasons.steps_per_year=48",
+        "seasons.mixed_layer_depth=20",
+        "albedo.kind=\"smooth\"",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    let mut sm = Scenario::load(None, &sets)
+        .unwrap()
+        .seasonal_model()
+        .unwrap();
+    let n = sm.len();
+    let u: Vec<f64> = sm
+        .model()
+        .grid
+        .centres
+        .iter()
+        .map(|x| 25.0 - 50.0 * x * x + 3.0 * x)
+        .collect();
+    let (mut m, mut s) = (vec![0.0; n * n], vec![0.0; n]);
+    let mut phi = u.clone();
+    sm.year_with_jacobian(&mut phi, &mut m, Some((Param::Diffusivity, &mut s)))
+        .unwrap();
+    let h = 1e-5;
+    let mut worst = 0.0f64;
+    for j in 0..n {
+        let (mut a, mut b) = (u.clone(), u.clone());
+        a[j] += h;
+        b[j] -= h;
+        sm.year(&mut a).unwrap();
+        sm.year(&mut b).unwrap();
+        for i in 0..n {
+            worst = worst.max(((a[i] - b[i]) / (2.0 * h) - m[i * n + j]).abs());
+        }
+    }
+    assert!(worst < 1e-7, "monodromy: {worst:e}");
+    let d0 = sm.param(Param::Diffusivity);
+    let hd = 1e-5;
+    let (mut a, mut b) = (u.clone(), u.clone());
+    sm.set_param(Param::Diffusivity, d0 + hd);
+    sm.year(&mut a).unwrap();
+    sm.set_param(Param::Diffusivity, d0 - hd);
+    sm.year(&mut b).unwrap();
+    sm.set_param(Param::Diffusivity, d0);
+    for i in 0..n {
+        let fd = (a[i] - b[i]) / (2.0 * hd);
+        assert!(
+            (fd - s[i]).abs() < 1e-6 * (1.0 + s[i].abs()),
+            "dPhi/dD[{i}]: {fd} vs {}",
+            s[i]
+        );
     }
 }

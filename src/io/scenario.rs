@@ -285,7 +285,7 @@ impl Scenario {
             return Err(ScenarioError::OutOfRange {
                 key: "transport.kind".into(),
                 value: "\"moist\"".into(),
-                allowed: "\"diffusive\" when seaice.enabled = true (the sea-ice model holds the dry diffusive convergence)".into(),
+                allowed: "\"diffusive\" when seaice.enabled = true (the sea-ice model holds the dry diffusive convergence; moist transport is for the annual-mean and the seasonal model without sea ice)".into(),
             });
         }
         if self.flag("seasons.enabled") && self.flag("grid.symmetric") {

@@ -461,12 +461,18 @@ mod tests {
 
     /// The analytic edge columns equal central differences of the residual
     /// (common practice, no source) on every topology with edges, both
-    /// spacings, full and symmetric grids, diffusive and relaxation
+    /// spacings, full and symmetric grids, diffusive, moist and relaxation
     /// transport, exact and Legendre insolation.
     #[test]
     fn edge_columns_match_differences() {
-        let cases: [&[&str]; 6] = [
+        let cases: [&[&str]; 8] = [
             &[],
+            &["transport.kind=\"moist\""],
+            &[
+                "transport.kind=\"moist\"",
+                "transport.relative_humidity=1",
+                "grid.spacing=\"latitude\"",
+            ],
             &["grid.spacing=\"latitude\""],
             &["grid.symmetric=true"],
             &["transport.kind=\"relaxation\"", "transport.relaxation=3.04"],
@@ -526,7 +532,7 @@ mod tests {
                 }
             }
         }
-        // 6 cases, each with 2 one-edge and 2 two-edge topologies
-        assert_eq!(checked, 6 * 6, "edge columns compared");
+        // 8 cases, each with 2 one-edge and 2 two-edge topologies
+        assert_eq!(checked, 8 * 6, "edge columns compared");
     }
 }
