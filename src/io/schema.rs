@@ -300,7 +300,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: num(0.0, 1.0),
         default: "0.8",
         unit: "",
-        doc: "r of moist transport (only transport.kind = \"moist\" uses it); 0 gives the dry diffusive law. Hwang & Frierson (2010) take 0.8.",
+        doc: "r of moist transport (only transport.kind = \"moist\" uses it); 0 gives the dry diffusive law exactly. The default 0.8 is the value of Hwang & Frierson (2010), from memory.",
     },
     KeySpec {
         key: "transport.surface_pressure",

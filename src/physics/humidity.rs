@@ -15,9 +15,11 @@
 //!
 //! h(T) = T + (L_v r / c_p) q_s(T),
 //!
-//! with relative humidity r, L_v = 2.5e6 J kg-1 and c_p = 1004 J kg-1 K-1
-//! (the values of Hwang & Frierson 2010, Geophys. Res. Lett. 37, L24807,
-//! who diffuse h this way). Its slope is h'(T) = 1 + (L_v r / c_p) dq_s/dT
+//! with relative humidity r, L_v = 2.5e6 J kg-1 (latent heat of
+//! vaporisation near 0 °C) and c_p = 1004 J kg-1 K-1 (dry air), the
+//! standard values (from memory). Diffusing h in this form is common
+//! practice for moist energy-balance models (Hwang & Frierson 2010,
+//! Geophys. Res. Lett. 37, L24807, with r = 0.8, from memory). Its slope is h'(T) = 1 + (L_v r / c_p) dq_s/dT
 //! with dq_s/dT = ε p e_s' / (p - (1 - ε) e_s)², e_s' = e_s · 17.67 ·
 //! 243.5 / (T + 243.5)².
 //!
@@ -31,12 +33,12 @@
 /// (0.622; Bolton 1980 and common practice).
 pub const EPSILON: f64 = 0.622;
 
-/// Latent heat of vaporisation L_v, J kg-1 (2.5e6, as in Hwang & Frierson
-/// 2010).
+/// Latent heat of vaporisation L_v, J kg-1 (2.5e6, its value near 0 °C;
+/// standard, from memory).
 pub const LATENT_HEAT_VAPORISATION: f64 = 2.5e6;
 
-/// Specific heat of dry air at constant pressure c_p, J kg-1 K-1 (1004, as
-/// in Hwang & Frierson 2010).
+/// Specific heat of dry air at constant pressure c_p, J kg-1 K-1 (1004;
+/// standard, from memory).
 pub const SPECIFIC_HEAT_AIR: f64 = 1004.0;
 
 /// e_s at 0 °C in Bolton's fit, hPa.
