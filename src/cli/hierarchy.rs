@@ -42,11 +42,6 @@ const MODELS: [(&str, &str, [&str; 2]); 3] = [
 /// models' branches overlaid) and `scenario.toml`.
 pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
-    if sc.text("transport.kind") == "moist" {
-        return Err(CliError::Usage(
-            "`transport.kind` = \"moist\" is out of range for --hierarchy: allowed \"diffusive\" (its model (c), seasonal with sea ice, holds the dry diffusive convergence)".into(),
-        ));
-    }
     let base = sc.to_toml();
     // the same planet in every model: the ocean heat flux F_b that the
     // sea-ice model takes from below enters (a) and (b) as a forcing

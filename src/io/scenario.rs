@@ -281,13 +281,6 @@ impl Scenario {
                 });
             }
         }
-        if self.flag("seaice.enabled") && self.text("transport.kind") == "moist" {
-            return Err(ScenarioError::OutOfRange {
-                key: "transport.kind".into(),
-                value: "\"moist\"".into(),
-                allowed: "\"diffusive\" when seaice.enabled = true (the sea-ice model holds the dry diffusive convergence; moist transport is for the annual-mean and the seasonal model without sea ice)".into(),
-            });
-        }
         if self.flag("seasons.enabled") && self.flag("grid.symmetric") {
             return Err(ScenarioError::OutOfRange {
                 key: "grid.symmetric".into(),

@@ -284,7 +284,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Choice(&["diffusive", "relaxation", "moist"]),
         default: "\"diffusive\"",
         unit: "",
-        doc: "D d/dx[(1-x^2) dT/dx] (North 1975), gamma (Tbar - T) (Budyko 1969), or D d/dx[(1-x^2) dh/dx] with the moist static energy h = T + (L_v r/c_p) q_s(T) (as in Hwang & Frierson 2010; q_s from Bolton 1980, L_v = 2.5e6 J kg-1, c_p = 1004 J kg-1 K-1). The sea-ice model needs \"diffusive\".",
+        doc: "D d/dx[(1-x^2) dT/dx] (North 1975), gamma (Tbar - T) (Budyko 1969), or D d/dx[(1-x^2) dh/dx] with the moist static energy h = T + (L_v r/c_p) q_s(T) (as in Hwang & Frierson 2010; q_s from Bolton 1980, L_v = 2.5e6 J kg-1, c_p = 1004 J kg-1 K-1). The sea-ice model takes \"diffusive\" or \"moist\".",
     },
     KeySpec {
         key: "transport.diffusivity",
@@ -364,7 +364,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Bool,
         default: "false",
         unit: "",
-        doc: "The seasonal model carries the surface enthalpy E (Wagner & Eisenman 2015): open water where E >= 0, ice of thickness -E/latent_heat where E < 0 (albedo.threshold is then not used). Needs seasons.enabled for `trace` and `map`, diffusive transport and no land.",
+        doc: "The seasonal model carries the surface enthalpy E (Wagner & Eisenman 2015): open water where E >= 0, ice of thickness -E/latent_heat where E < 0 (albedo.threshold is then not used). Needs seasons.enabled for `trace` and `map`, diffusive or moist transport and no land.",
     },
     KeySpec {
         key: "seaice.conductivity",
