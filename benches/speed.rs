@@ -1,6 +1,6 @@
 //! Speed figures (criterion, not timed tests): `cargo bench --bench speed`.
 //! Groups: the per-point kernel `Model::evaluate` with and without its
-//! Jacobian; steady solves against bands; Newton against implicit time
+//! Jacobian, with dry and with moist transport; steady solves against bands; Newton against implicit time
 //! stepping to the same equilibrium; traces of the hysteresis loop against
 //! bands, and at 90 bands against the sub-grid ice fraction (the
 //! formulation before the edges became unknowns); the flux ramp a
@@ -50,6 +50,22 @@ fn kernels(c: &mut Criterion, s: &Summary) {
         g.bench_function(BenchmarkId::new("jacobian", &b), |bch| {
             bch.iter(|| m.evaluate(black_box(&t), &mut f, Some(&mut jac)))
         });
+        // the same planet with moist transport (one exp per band more)
+        let moist = Scenario::load(
+            None,
+            &[
+                format!("grid.bands={bands}"),
+                "transport.kind=\"moist\"".into(),
+            ],
+        )
+        .unwrap()
+        .model();
+        g.bench_function(BenchmarkId::new("residual-moist", &b), |bch| {
+            bch.iter(|| moist.evaluate(black_box(&t), &mut f, None))
+        });
+        g.bench_function(BenchmarkId::new("jacobian-moist", &b), |bch| {
+            bch.iter(|| moist.evaluate(black_box(&t), &mut f, Some(&mut jac)))
+        });
     }
     g.finish();
     for bands in [90, 360] {
@@ -57,6 +73,14 @@ fn kernels(c: &mut Criterion, s: &Summary) {
         s.scaling(
             &format!("evaluate with Jacobian, {bands} bands"),
             &["evaluate", "jacobian", &b],
+            &["evaluate", "residual", &b],
+        );
+    }
+    for bands in [90, 360] {
+        let b = format!("bands={bands}");
+        s.scaling(
+            &format!("moist against dry residual, {bands} bands"),
+            &["evaluate", "residual-moist", &b],
             &["evaluate", "residual", &b],
         );
     }

@@ -440,14 +440,20 @@ impl Scenario {
                 b: self.num("radiation.b"),
             }
         };
-        let transport = if self.text("transport.kind") == "relaxation" {
-            Transport::Relaxation {
+        let transport = match self.text("transport.kind") {
+            "relaxation" => Transport::Relaxation {
                 rate: self.num("transport.relaxation"),
-            }
-        } else {
-            Transport::Diffusive {
+            },
+            "moist" => Transport::Moist {
                 diffusivity: self.num("transport.diffusivity"),
-            }
+                air: crate::physics::humidity::MoistAir {
+                    relative_humidity: self.num("transport.relative_humidity"),
+                    pressure_hpa: self.num("transport.surface_pressure"),
+                },
+            },
+            _ => Transport::Diffusive {
+                diffusivity: self.num("transport.diffusivity"),
+            },
         };
         let f_land = self.num("seasons.land_fraction");
         let c = f_land * self.num("seasons.land_heat_capacity")

@@ -281,10 +281,10 @@ pub const SCHEMA: &[KeySpec] = &[
     KeySpec {
         key: "transport.kind",
         label: "Heat transport law",
-        kind: Kind::Choice(&["diffusive", "relaxation"]),
+        kind: Kind::Choice(&["diffusive", "relaxation", "moist"]),
         default: "\"diffusive\"",
         unit: "",
-        doc: "D d/dx[(1-x^2) dT/dx] (North 1975) or gamma (Tbar - T) (Budyko 1969).",
+        doc: "D d/dx[(1-x^2) dT/dx] (North 1975), gamma (Tbar - T) (Budyko 1969), or D d/dx[(1-x^2) dh/dx] with the moist static energy h = T + (L_v r/c_p) q_s(T) (as in Hwang & Frierson 2010; q_s from Bolton 1980, L_v = 2.5e6 J kg-1, c_p = 1004 J kg-1 K-1). The sea-ice model takes \"diffusive\" or \"moist\".",
     },
     KeySpec {
         key: "transport.diffusivity",
@@ -292,7 +292,23 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: num(0.0, 1e3),
         default: "0.649",
         unit: "W m-2 K-1",
-        doc: "D of diffusive transport.",
+        doc: "D of diffusive and of moist transport.",
+    },
+    KeySpec {
+        key: "transport.relative_humidity",
+        label: "Relative humidity r",
+        kind: num(0.0, 1.0),
+        default: "0.8",
+        unit: "",
+        doc: "r of moist transport (only transport.kind = \"moist\" uses it); 0 gives the dry diffusive law exactly. The default 0.8 is the value of Hwang & Frierson (2010), from memory.",
+    },
+    KeySpec {
+        key: "transport.surface_pressure",
+        label: "Surface pressure p",
+        kind: num(100.0, 10000.0),
+        default: "1013.25",
+        unit: "hPa",
+        doc: "p in q_s = 0.622 e_s/(p - 0.378 e_s), e_s = 6.112 hPa exp(17.67 T/(T + 243.5)) (Bolton 1980, eq. 10; T in C); only transport.kind = \"moist\" uses it. 1013.25 hPa is the standard atmosphere.",
     },
     KeySpec {
         key: "transport.relaxation",
@@ -348,7 +364,7 @@ pub const SCHEMA: &[KeySpec] = &[
         kind: Kind::Bool,
         default: "false",
         unit: "",
-        doc: "The seasonal model carries the surface enthalpy E (Wagner & Eisenman 2015): open water where E >= 0, ice of thickness -E/latent_heat where E < 0 (albedo.threshold is then not used). Needs seasons.enabled for `trace` and `map`, diffusive transport and no land.",
+        doc: "The seasonal model carries the surface enthalpy E (Wagner & Eisenman 2015): open water where E >= 0, ice of thickness -E/latent_heat where E < 0 (albedo.threshold is then not used). Needs seasons.enabled for `trace` and `map`, diffusive or moist transport and no land.",
     },
     KeySpec {
         key: "seaice.conductivity",

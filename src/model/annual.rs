@@ -381,10 +381,7 @@ impl Model {
                 OlrLaw::Greybody { emissivity } => emissivity,
                 _ => f64::NAN,
             },
-            Param::Diffusivity => match pl.transport {
-                Transport::Diffusive { diffusivity } => diffusivity,
-                _ => f64::NAN,
-            },
+            Param::Diffusivity => pl.transport.diffusivity().unwrap_or(f64::NAN),
             Param::Relaxation => match pl.transport {
                 Transport::Relaxation { rate } => rate,
                 _ => f64::NAN,
@@ -446,7 +443,9 @@ impl Model {
                 return;
             }
             Param::Diffusivity => {
-                if let Transport::Diffusive { diffusivity } = &mut pl.transport {
+                if let Transport::Diffusive { diffusivity } | Transport::Moist { diffusivity, .. } =
+                    &mut pl.transport
+                {
                     *diffusivity = v
                 }
                 return;
@@ -476,7 +475,7 @@ impl Model {
     }
 
     /// ∂F/∂p at T into `out`. Analytic where F is linear in p (flux, CO2,
-    /// A, B, D, γ; not for the relaxation edge ramp, which depends on flux,
+    /// A, B, D of the dry and the moist law, γ; not for the relaxation edge ramp, which depends on flux,
     /// B and γ as well); otherwise a central difference with step 1e-6 of the
     /// parameter's scale, restoring the parameter bit for bit. `scratch`
     /// must have one entry per band.
@@ -519,10 +518,8 @@ impl Model {
             }
             Param::Diffusivity | Param::Relaxation => {
                 let saved = self.planet.transport;
-                self.planet.transport = match saved {
-                    Transport::Diffusive { .. } => Transport::Diffusive { diffusivity: 1.0 },
-                    Transport::Relaxation { .. } => Transport::Relaxation { rate: 1.0 },
-                };
+                // ∇·F is linear in D (dry and moist) and in γ
+                self.planet.transport = saved.unit();
                 out.fill(0.0);
                 self.add_transport(t, out);
                 self.planet.transport = saved;

@@ -8,7 +8,9 @@
 //! `seasons.mixed_layer_depth`; L_f the latent heat of fusion per volume
 //! of ice; T_m the freezing point).
 //!
-//! **Energy.** ∂E/∂t = a(E) S(x, t) - L(T) + ∇·(D ∇T) + F_b + F, with the
+//! **Energy.** ∂E/∂t = a(E) S(x, t) - L(T) + ∇·(D ∇T) + F_b + F (with moist
+//! transport ∇·(D ∇h(T)), h the moist static energy of
+//! [`crate::physics::humidity`], at the surface temperature), with the
 //! ocean heat flux F_b from below everywhere, the radiative forcing F
 //! (`radiation.forcing`, inside the OLR law's forcing together with CO2),
 //! L(T) the OLR law, and the coalbedo a of open water or ice where E >= 0
@@ -34,7 +36,9 @@
 //!
 //! r_i(T) = T_i - T_m - max(E_i, 0)/c_w - min(0, G_i) max(0, -E_i)/(k L_f) = 0
 //!
-//! by Newton (tridiagonal: ∂r_i/∂T_j = δ_ij - c_i ∂G_i/∂T_j, c_i = Δt/c_w
+//! by Newton (tridiagonal: ∂r_i/∂T_j = δ_ij - c_i ∂G_i/∂T_j, whose transport
+//! part is that of [`Transport::add_divergence`], times h'(T_j) for moist
+//! transport; c_i = Δt/c_w
 //! over open water, (h_i - Δt G_i/L_f)/k over freezing ice, 0 over melting
 //! ice); then Eⁿ⁺¹ = E(T). The three regimes meet continuously: as E -> 0
 //! from below h -> 0 and T -> T_m, as from above. Because the step is
@@ -55,6 +59,10 @@ use super::seasonal::{SeasonalError, SeasonalModel};
 use crate::numerics::linalg::Tridiagonal;
 use crate::physics::radiation::Olr;
 use crate::physics::transport::Transport;
+
+/// Largest surface-temperature change of one Newton iteration of the
+/// sea-ice step with moist transport, K.
+const MOIST_STEP_K: f64 = 10.0;
 
 /// Sea-ice parameters (Wagner & Eisenman 2015, Table 1).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -134,13 +142,13 @@ enum Regime {
 }
 
 impl SeasonalModel {
-    /// Checks the model can carry sea ice: diffusive transport, a step or
+    /// Checks the model can carry sea ice: diffusive (dry or moist) transport, a step or
     /// smooth albedo, an aquaplanet (no land).
     pub(crate) fn check_sea_ice(&self, ice: &SeaIce) -> Result<(), SeasonalError> {
         let m = self.model();
-        if !matches!(m.planet.transport, Transport::Diffusive { .. }) {
+        if let Transport::Relaxation { .. } = m.planet.transport {
             return Err(SeasonalError::Invalid(
-                "sea ice needs transport.kind = \"diffusive\" (the surface balance holds the diffusive convergence)".into(),
+                "`transport.kind` = \"relaxation\": sea ice needs \"diffusive\" or \"moist\" (the surface balance holds the diffusive convergence)".into(),
             ));
         }
         let ok = |x: f64| x.is_finite() && x > 0.0;
@@ -259,6 +267,8 @@ impl SeasonalModel {
             for i in 0..n {
                 w.surface[i] = ice.freezing_point + e[i].max(0.0) / cap[i];
             }
+            // (r = 0 is the dry law exactly, and is stepped as such)
+            let moist = matches!(m.planet.transport, Transport::Moist { air, .. } if air.relative_humidity > 0.0);
             let mut err = f64::INFINITY;
             let mut last_step = f64::INFINITY;
             for it in 0..=max_it {
@@ -332,10 +342,20 @@ impl SeasonalModel {
                     w.dt_vec[i] = -w.r[i];
                 }
                 w.rt.solve(&mut w.dt_vec);
+                // moist transport makes G exponential in T: Newton's first
+                // steps from the melting-point guess can overshoot into
+                // the hot range, so they are capped at MOIST_STEP_K (the
+                // dry G is linear but for the OLR, and is left undamped)
+                let big = w.dt_vec.iter().fold(0.0f64, |a, x| a.max(x.abs()));
+                let damp = if moist && big > MOIST_STEP_K {
+                    MOIST_STEP_K / big
+                } else {
+                    1.0
+                };
                 last_step = 0.0;
                 for i in 0..n {
-                    w.surface[i] += w.dt_vec[i];
-                    last_step = last_step.max(w.dt_vec[i].abs());
+                    w.surface[i] += damp * w.dt_vec[i];
+                    last_step = last_step.max((damp * w.dt_vec[i]).abs());
                 }
             }
             Err(SeasonalError::StepFailed {
@@ -396,8 +416,8 @@ impl SeasonalModel {
                     };
                 }
                 if *p == Param::Diffusivity {
-                    // the diffusive convergence is linear in D
-                    let unit = Transport::Diffusive { diffusivity: 1.0 };
+                    // the diffusive convergence (dry or moist) is linear in D
+                    let unit = m.planet.transport.unit();
                     w.gp.fill(0.0);
                     unit.add_divergence(&m.grid, &m.conductance, &w.surface, &mut w.gp, None);
                 }

@@ -268,7 +268,7 @@ impl SeasonalModel {
     /// [`SeasonalModel::new`] with the sea-ice thermodynamics of Wagner &
     /// Eisenman (2015) ([`crate::model::seaice`]): the state becomes the
     /// surface enthalpy E (W yr m-2) and the surface is ice where E < 0
-    /// (the albedo threshold is not used). Needs diffusive transport.
+    /// (the albedo threshold is not used). Needs diffusive (dry or moist) transport.
     pub fn with_sea_ice(
         mut model: Model,
         steps_per_year: usize,

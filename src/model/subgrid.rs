@@ -188,7 +188,7 @@ impl Model {
         );
         let gamma = match self.planet.transport {
             Transport::Relaxation { rate } => rate,
-            Transport::Diffusive { .. } => 0.0,
+            Transport::Diffusive { .. } | Transport::Moist { .. } => 0.0,
         };
         let olr = Olr {
             law: self.planet.olr,

@@ -8,9 +8,13 @@
 //! - [`albedo`]: step (Budyko 1969) and smooth albedo laws, open-surface P2 term.
 //! - [`radiation`]: outgoing longwave laws and CO2 forcing (Myhre et al. 1998).
 //! - [`transport`]: meridional heat transport, diffusive (North 1975) or
-//!   relaxation (Budyko 1969), as finite-volume divergences.
+//!   relaxation (Budyko 1969), or moist diffusive (the diffusion of moist
+//!   static energy, Hwang & Frierson 2010), as finite-volume divergences.
+//! - [`humidity`]: saturation vapour pressure (Bolton 1980), saturation
+//!   specific humidity and moist static energy.
 
 pub mod albedo;
+pub mod humidity;
 pub mod insolation;
 pub mod orbit;
 pub mod radiation;

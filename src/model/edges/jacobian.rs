@@ -139,18 +139,22 @@ impl EdgeModel {
             }
         }
         match self.model.planet.transport {
-            Transport::Diffusive { diffusivity } => {
+            law @ (Transport::Diffusive { diffusivity } | Transport::Moist { diffusivity, .. }) => {
                 // dG_f/de = D (T_f - T_{f-1}) (-2 x_f x_f' - (1 - x_f²) Δc' / Δc) / Δc
+                // (moist: h(T_f) - h(T_{f-1}); the cell temperatures are fixed)
                 let dcen = &self.dcentre[..n];
+                let mut below = law.energy_and_slope(t[0]).0;
                 for face in 1..n {
+                    let above = law.energy_and_slope(t[face]).0;
                     let x = faces[face];
                     let ddc = dcen[face] - dcen[face - 1];
                     let dg = diffusivity
-                        * (t[face] - t[face - 1])
+                        * (above - below)
                         * self.inv_dc[face]
                         * (-2.0 * x * dface[face] - self.cond[face] * ddc);
                     col[face - 1] += dg;
                     col[face] -= dg;
+                    below = above;
                 }
             }
             Transport::Relaxation { rate } => {
@@ -194,7 +198,7 @@ impl EdgeModel {
                     let dar = dq(x, c[m], dx, dc[m], c[m + 1], c[m], dc[m + 1], dc[m]);
                     0.5 * dal * (t[m - 1] - t[m - 2]) + 0.5 * dar * (t[m + 1] - t[m])
                 }
-                Transport::Diffusive { .. } => {
+                Transport::Diffusive { .. } | Transport::Moist { .. } => {
                     let dth = dq(c[m], x, dc[m], dx, c[m], c[m - 1], dc[m], dc[m - 1]);
                     dth * (t[m - 1] - t[m])
                 }
@@ -244,22 +248,27 @@ impl EdgeModel {
                 }
                 rate
             }
-            Transport::Diffusive { .. } => 0.0,
+            Transport::Diffusive { .. } | Transport::Moist { .. } => 0.0,
         };
         for ((d, ti), w) in j.diag[..n].iter_mut().zip(t).zip(ws) {
             let cell = -olr.value_and_slope(*ti).1;
             let cell = if rate != 0.0 { cell - rate } else { cell };
             *d = cell * (w * pw);
         }
-        if let Transport::Diffusive { diffusivity } = self.model.planet.transport {
+        let law = self.model.planet.transport;
+        if let Some(diffusivity) = law.diffusivity() {
+            // moist: each entry times h'(T) of its column's cell (1 when dry)
             let dp = diffusivity * pw;
             let (dg, lo, up) = (&mut j.diag[..n], &mut j.lower[..n], &mut j.upper[..n]);
+            let mut below = law.energy_and_slope(t[0]).1;
             for (face, g) in self.cond[..n].iter().enumerate().skip(1) {
+                let above = law.energy_and_slope(t[face]).1;
                 let c = dp * g;
-                dg[face - 1] -= c;
-                up[face - 1] += c;
-                dg[face] -= c;
-                lo[face] += c;
+                dg[face - 1] -= c * below;
+                up[face - 1] += c * above;
+                dg[face] -= c * above;
+                lo[face] += c * below;
+                below = above;
             }
         }
         // rounding level of the weighted balances: 8 ulps of the largest
@@ -409,7 +418,9 @@ impl EdgeModel {
         let m = self.edge_face[j];
         let c = &self.centres;
         match self.model.planet.transport {
-            Transport::Diffusive { .. } => (t[m] - t[m - 1]) / (c[m] - c[m - 1]),
+            Transport::Diffusive { .. } | Transport::Moist { .. } => {
+                (t[m] - t[m - 1]) / (c[m] - c[m - 1])
+            }
             Transport::Relaxation { .. } => {
                 0.5 * ((t[m - 1] - t[m - 2]) / (c[m - 1] - c[m - 2])
                     + (t[m + 1] - t[m]) / (c[m + 1] - c[m]))
@@ -450,12 +461,18 @@ mod tests {
 
     /// The analytic edge columns equal central differences of the residual
     /// (common practice, no source) on every topology with edges, both
-    /// spacings, full and symmetric grids, diffusive and relaxation
+    /// spacings, full and symmetric grids, diffusive, moist and relaxation
     /// transport, exact and Legendre insolation.
     #[test]
     fn edge_columns_match_differences() {
-        let cases: [&[&str]; 6] = [
+        let cases: [&[&str]; 8] = [
             &[],
+            &["transport.kind=\"moist\""],
+            &[
+                "transport.kind=\"moist\"",
+                "transport.relative_humidity=1",
+                "grid.spacing=\"latitude\"",
+            ],
             &["grid.spacing=\"latitude\""],
             &["grid.symmetric=true"],
             &["transport.kind=\"relaxation\"", "transport.relaxation=3.04"],
@@ -515,7 +532,7 @@ mod tests {
                 }
             }
         }
-        // 6 cases, each with 2 one-edge and 2 two-edge topologies
-        assert_eq!(checked, 6 * 6, "edge columns compared");
+        // 8 cases, each with 2 one-edge and 2 two-edge topologies
+        assert_eq!(checked, 8 * 6, "edge columns compared");
     }
 }

@@ -23,7 +23,9 @@
 //! where ā_i is the cell mean of s(x)(1 - α(x)) with the albedo of the cell's
 //! region (open: α = open + open_p2 P2(x), North et al. 1981; ice: α_ice),
 //! the transport is the finite-volume diffusion D d/dx[(1 - x²) dT/dx]
-//! (North 1975) or the relaxation γ (T̄ - T) (Budyko 1969), and T(e_j) is the
+//! (North 1975), the same diffusion of the moist static energy h(T)
+//! ([`crate::physics::humidity`]; Hwang & Frierson 2010), or the relaxation
+//! γ (T̄ - T) (Budyko 1969), and T(e_j) is the
 //! temperature at the edge face: linear interpolation between the two cell
 //! centres beside it for diffusion (T and its flux are continuous there), the
 //! mean of both one-sided limits for relaxation (the published convention of
@@ -54,7 +56,13 @@
 //! above (invariant under the change from mapped to physical coordinates).
 //! For one edge: unstable iff S / T'(e) < 0; in the linear diffusive model
 //! this is the slope-stability theorem (Cahalan & North 1979, J. Atmos. Sci.
-//! 36, 1178), which the tests check.
+//! 36, 1178), which the tests check. Moist diffusion makes A = S H' with S
+//! symmetric negative definite and H' = diag(h'(T_i)) > 0, so A is similar
+//! to a negative definite matrix and the same count applies in the
+//! variables δh = H' δT (the edge rows then carry 1/h' of the two cells
+//! beside the edge, which differ by O(cell width): the count is exact
+//! except within that distance of a fold); `tests/moist_transport.rs`
+//! checks that stability changes only at folds on a moist trace.
 
 use crate::model::Model;
 
@@ -179,7 +187,8 @@ impl EdgeModel {
             ));
         }
         match pl.transport {
-            Transport::Diffusive { diffusivity } if diffusivity > 0.0 => {}
+            Transport::Diffusive { diffusivity } | Transport::Moist { diffusivity, .. }
+                if diffusivity > 0.0 => {}
             Transport::Relaxation { rate } if rate > 0.0 => {}
             _ => return Err(EdgeError::Unsupported("positive heat transport")),
         }
@@ -494,7 +503,7 @@ impl EdgeModel {
                 ];
                 (w.iter().map(|(i, a)| a * t[*i]).sum(), w)
             }
-            Transport::Diffusive { .. } => {
+            Transport::Diffusive { .. } | Transport::Moist { .. } => {
                 let th = (c[m] - x) / (c[m] - c[m - 1]);
                 let w = [(m - 1, th), (m, 1.0 - th), (m, 0.0), (m, 0.0)];
                 (th * t[m - 1] + (1.0 - th) * t[m], w)
@@ -516,11 +525,12 @@ impl EdgeModel {
         let olr = self.olr();
         // F_i = (w_i (Q s̄_i (1 - α) - OLR(T_i)) + G_{i+1/2} - G_{i-1/2}) / w̄
         // with the diffusive flux G_f = D (1 - x_f²) (T_f - T_{f-1}) / (c_f - c_{f-1})
+        // (moist: h(T_f) - h(T_{f-1}))
         // (relaxation: the cell term gains rate (T̄ - T_i), no face fluxes)
         let pw = self.per_width;
         let (rate, tbar) = match self.model.planet.transport {
             Transport::Relaxation { rate } => (rate, self.mean(t)),
-            Transport::Diffusive { .. } => (0.0, 0.0),
+            Transport::Diffusive { .. } | Transport::Moist { .. } => (0.0, 0.0),
         };
         for i in 0..n {
             let cell = q * self.coalb[i] - olr.value_and_slope(t[i]).0;
@@ -531,12 +541,17 @@ impl EdgeModel {
             };
             f[i] = cell * (self.widths[i] * pw);
         }
-        if let Transport::Diffusive { diffusivity } = self.model.planet.transport {
+        let law = self.model.planet.transport;
+        if let Some(diffusivity) = law.diffusivity() {
+            // the moist law diffuses h(T) instead of T (h = T for the dry one)
             let dp = diffusivity * pw;
+            let mut below = law.energy_and_slope(t[0]).0;
             for face in 1..n {
-                let g = dp * self.cond[face] * (t[face] - t[face - 1]);
+                let above = law.energy_and_slope(t[face]).0;
+                let g = dp * self.cond[face] * (above - below);
                 f[face - 1] += g;
                 f[face] -= g;
+                below = above;
             }
         }
         let ts = self.model.planet.albedo.threshold;
