@@ -6,7 +6,7 @@
 # Slow suites: cargo test --release -- --ignored (not run here).
 set -euo pipefail
 cd "$(dirname "$0")/.."
-python3 -m pip install --quiet --disable-pip-version-check -r python/requirements-test.txt
+python3 -m pip install --quiet --disable-pip-version-check --root-user-action=ignore -r python/requirements-test.txt
 # the Python front (pyproject.toml: maturin builds pyfront/ into the abi3
 # wheel of the module `icefold`; the same wheel `pip install .` would build),
 # installed here and, by python/tests/test_front.py, into a fresh venv

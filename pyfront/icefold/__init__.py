@@ -352,8 +352,10 @@ def run(
     **overrides: Any,
 ) -> xr.Dataset:
     """Time integration of the seasonal model (``icefold run``): the time
-    series along ``time`` and the final state along ``band``."""
-    opts = [("years", years), ("start", start)]
+    series along ``time`` (``time_*``) and the final state along ``band``
+    (``band_*``). ``start`` is ``--from``: "warm", "cold" or the path of a
+    ``state.csv`` an earlier run wrote."""
+    opts = [("years", years), ("from", None if start is None else os.fspath(start))]
     text, files = _call("run", scenario, sets, overrides, opts)
     return _dataset("run", text, files, {"timeseries.csv": "time", "state.csv": "band"})
 

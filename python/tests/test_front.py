@@ -135,6 +135,36 @@ def test_solve_map_periodic_sun_equal_the_commands(tmp_path):
     assert_tables_equal(ds, files, "insolation.csv", "sample", "sample_")
 
 
+def test_run_and_check_equal_the_commands(tmp_path):
+    sets = {"grid.bands": 16, "seasons.steps_per_year": 24}
+    flags = ["--set", "grid.bands=16", "--set", "seasons.steps_per_year=24"]
+    _, files = cli(tmp_path, "run", "--years", "2", "--from", "cold", *flags)
+    ds = icefold.run(years=2, start="cold", **sets)
+    assert_tables_equal(ds, files, "timeseries.csv", "time", "time_")
+    assert_tables_equal(ds, files, "state.csv", "band", "band_")
+    # a run continued from the state it wrote, as `run --from FILE` does
+    state = tmp_path / "state.csv"
+    state.write_bytes(files["state.csv"])
+    (tmp_path / "state.json").write_bytes(files["state.json"])  # read beside it
+    _, again = cli(tmp_path, "run", "--years", "1", "--from", state, *flags)
+    ds2 = icefold.run(years=1, start=state, **sets)
+    assert_tables_equal(ds2, again, "state.csv", "band", "band_")
+    # check: the scenario with its defaults, as the command prints it
+    r = subprocess.run([str(BINARY), "check", *flags], capture_output=True, text=True, check=True)
+    assert icefold.check(**sets) == r.stdout
+
+
+@pytest.mark.parametrize("scenario", [None, KDWARF])
+def test_solve_and_map_of_both_scenarios(tmp_path, scenario):
+    extra = [scenario] if scenario else []
+    _, files = cli(tmp_path, "solve", *extra)
+    assert_tables_equal(icefold.solve(scenario), files, "profile.csv", "point")
+    across = "orbit.obliquity=10:50:3"
+    _, files = cli(tmp_path, "map", *extra, "--across", across, "--cells", "30")
+    ds = icefold.map(scenario, across=across, cells=30)
+    assert_tables_equal(ds, files, "map.csv", "point", "point_")
+
+
 def test_to_files_writes_the_files_of_the_command(tmp_path):
     _, files = cli(tmp_path, "map", "--across", "orbit.obliquity=0:30:3", "--cells", "30")
     ds = icefold.map(across="orbit.obliquity=0:30:3", cells=30, figures=True)
