@@ -12,6 +12,13 @@ Scenarios: ``scenario`` is a path (or None for the built-in default);
 overrides use the dotted names of ``--set``, as a dict or as keyword
 arguments (``icefold.trace(**{"orbit.obliquity": 40})``).
 
+Units (also in each variable's ``units`` attribute): temperatures in °C
+(names ending ``_c``), ice edges and latitudes in degrees north (``_deg``),
+fluxes in W m-2 (``orbit_flux``, ``_wm2``), fractions of area or year in 1,
+times in years (``_yr``, ``time_years``), CO2 in ppm; a residual is in
+W m-2 for equilibria and in K (W yr m-2 with sea ice) for periodic
+climates (``summary.json`` ``residual``).
+
 Errors: bad input raises ``ValueError`` with the command line's message
 (naming the field, its value and the allowed range); a failed computation
 raises ``icefold.ComputationError``; Ctrl-C interrupts a long call.
@@ -45,12 +52,15 @@ __all__ = [
     "run",
     "sun",
     "to_files",
+    "to_netcdf",
+    "load",
+    "Scenario",
     "__version__",
 ]
 
 __version__ = _version()
 
-PathLike = Union[str, "os.PathLike[str]", None]
+PathLike = Union[str, "os.PathLike[str]", "Scenario", None]
 
 # CF-style units of the columns the commands write, by name
 _UNITS = {
@@ -88,6 +98,29 @@ def _sets(sets: Optional[Mapping[str, Any]], overrides: Mapping[str, Any]) -> Li
     return [f"{k}={_value(v)}" for k, v in merged.items()]
 
 
+class Scenario:
+    """A scenario: a file (or the built-in default) with overrides by the
+    dotted names of ``--set``, validated when made (ValueError naming a bad
+    field). Every function takes one as its ``scenario``; overrides given
+    to a call are applied on top of its own."""
+
+    def __init__(self, path: PathLike = None, sets: Optional[Mapping[str, Any]] = None, **overrides: Any):
+        self.path = None if path is None else os.fspath(path)
+        self.sets: Dict[str, Any] = dict(sets or {})
+        self.sets.update(overrides)
+        #: the scenario as TOML, every default filled in
+        self.toml = check(self.path, self.sets)
+
+    def __repr__(self) -> str:
+        return f"icefold.Scenario({self.path!r}, {self.sets!r})"
+
+
+def load(path: PathLike = None, sets: Optional[Mapping[str, Any]] = None, **overrides: Any) -> Scenario:
+    """A validated :class:`Scenario` from a file (None: the built-in
+    default), a dict of keys and/or keyword overrides (dotted names)."""
+    return Scenario(path, sets, **overrides)
+
+
 def _call(
     command: str,
     scenario: PathLike,
@@ -99,7 +132,12 @@ def _call(
 ) -> Tuple[str, Dict[str, bytes]]:
     opts = [(k, _value(v) if not isinstance(v, str) else v) for k, v in options if v is not None]
     opts = [(k, v.strip('"') if isinstance(v, str) else v) for k, v in opts]
-    path = None if scenario is None else os.fspath(scenario)
+    if isinstance(scenario, Scenario):
+        base = dict(scenario.sets)
+        base.update(sets or {})
+        sets, path = base, scenario.path
+    else:
+        path = None if scenario is None else os.fspath(scenario)
     text, files = _run(
         command, path, _sets(sets, overrides), opts, figures=figures, quiet=not progress
     )
@@ -227,6 +265,10 @@ def to_files(ds: xr.Dataset, out: PathLike) -> List[str]:
     if entry is None or entry[0]() is not ds:
         raise ValueError("to_files: this Dataset was not returned by an icefold call")
     return _publish(os.fspath(out), list(entry[1].items()))
+
+
+#: the same as :func:`to_files` (the command's files include its NetCDF files)
+to_netcdf = to_files
 
 
 def check(scenario: PathLike = None, sets: Optional[Mapping[str, Any]] = None, **overrides: Any) -> str:

@@ -209,6 +209,15 @@ def test_the_files_kept_for_to_files_go_with_their_dataset():
     assert len(icefold._FILES) == before
 
 
+def test_a_loaded_scenario_is_the_file_with_its_overrides(tmp_path):
+    sc = icefold.load(KDWARF, {"orbit.obliquity": 35}, **{"grid.bands": 45})
+    assert "obliquity = 35" in sc.toml and "bands = 45" in sc.toml
+    _, files = cli(tmp_path, "trace", KDWARF, "--set", "orbit.obliquity=35", "--set", "grid.bands=45")
+    assert_tables_equal(icefold.trace(sc), files, "folds.csv", "fold", "fold_")
+    with pytest.raises(ValueError, match="grid.bands"):
+        icefold.load(**{"grid.bands": 1})
+
+
 def test_bad_input_raises_value_error_naming_the_field():
     with pytest.raises(ValueError, match=r"orbit\.flux.*-5.*allowed"):
         icefold.trace(**{"orbit.flux": -5})
