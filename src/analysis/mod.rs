@@ -8,6 +8,7 @@
 //! with every other parameter ([`sensitivity`]).
 
 pub mod branches;
+pub mod coupled;
 pub mod cycle;
 pub mod edgetrace;
 pub mod foldcurve;
@@ -16,3 +17,4 @@ pub mod periodic;
 pub mod sensitivity;
 pub mod skeleton;
 pub mod sweep;
+pub mod thermostat;

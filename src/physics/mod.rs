@@ -9,9 +9,12 @@
 //! - [`radiation`]: outgoing longwave laws and CO2 forcing (Myhre et al. 1998).
 //! - [`transport`]: meridional heat transport, diffusive (North 1975) or
 //!   relaxation (Budyko 1969), as finite-volume divergences.
+//! - [`weathering`]: silicate weathering on the open surface, the slow CO2
+//!   sink (Walker, Hays & Kasting 1981).
 
 pub mod albedo;
 pub mod insolation;
 pub mod orbit;
 pub mod radiation;
 pub mod transport;
+pub mod weathering;
