@@ -161,10 +161,7 @@ fn cycle_spans_the_folds_of_the_fast_hysteresis() {
         .iter()
         .flat_map(|b| b.folds.iter().map(|f| f.point.p))
         .collect();
-    assert!(
-        folds.iter().any(|f| *f == pw) && folds.iter().any(|f| *f == ps),
-        "{folds:?}"
-    );
+    assert!(folds.contains(&pw) && folds.contains(&ps), "{folds:?}");
     println!("cycle CO2 {pw} to {ps} ppm; T {:?}", c.temperature_range_c);
     let mut m = sc.model();
     let mut ws = Workspace::new(&m);
@@ -267,14 +264,18 @@ fn weathering_vanishes_in_snowball_and_grows_with_t_and_p() {
     for (_, pts) in th.branch_curves() {
         for w in pts.windows(2) {
             let (a, b) = (w[0], w[1]);
-            if a.4 == State::Snowball {
-                assert_eq!(a.2, 0.0);
+            if a.state == State::Snowball {
+                assert_eq!(a.weathering, 0.0);
                 snow += 1;
             } else {
-                assert!(a.2 > 0.0, "{a:?}");
+                assert!(a.weathering > 0.0, "{a:?}");
             }
-            if a.3 && b.3 && a.4 == State::PolarCaps && b.4 == State::PolarCaps && a.0 != b.0 {
-                assert!((b.2 - a.2) * (b.0 - a.0) > 0.0, "{a:?} {b:?}");
+            let warm = |q: &icefold::analysis::thermostat::CurvePoint| {
+                q.stable && q.state == State::PolarCaps
+            };
+            if warm(&a) && warm(&b) && a.co2_ppm != b.co2_ppm {
+                let slope = (b.weathering - a.weathering) * (b.co2_ppm - a.co2_ppm);
+                assert!(slope > 0.0, "{a:?} {b:?}");
             }
         }
     }
@@ -283,4 +284,104 @@ fn weathering_vanishes_in_snowball_and_grows_with_t_and_p() {
     assert!(law.rate(20.0, 0.5, 280.0) > law.rate(10.0, 0.5, 280.0));
     assert!(law.rate(10.0, 0.5, 560.0) > law.rate(10.0, 0.5, 280.0));
     assert_eq!(law.rate(10.0, 0.0, 560.0), 0.0);
+}
+
+// The command publishes every output at once, one row per outgassing
+// rate, with no NaN (common practice, no source).
+#[test]
+fn command_writes_every_output() {
+    let d = temp_dir("thermostat");
+    let (code, stdout, stderr) = icefold(&[
+        "thermostat",
+        "scenarios/outer-edge.toml",
+        "--outgassing",
+        "0.1:7:4",
+        "--out",
+        d.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stderr.is_empty(), "{stderr}");
+    assert!(
+        stdout.contains("cycles") && stdout.contains("settles"),
+        "{stdout}"
+    );
+    let csv = std::fs::read_to_string(d.join("thermostat.csv")).unwrap();
+    assert!(
+        csv.starts_with("outgassing_bar_per_gyr,outcome,co2_ppm,"),
+        "{csv}"
+    );
+    assert_eq!(csv.lines().count(), 1 + 4);
+    let cycle = std::fs::read_to_string(d.join("cycle.csv")).unwrap();
+    assert!(cycle.starts_with("time_yr,co2_ppm,global_mean_temperature_c,"));
+    assert!(cycle.lines().count() > 10);
+    for f in [&csv, &cycle] {
+        assert!(!f.to_lowercase().contains("nan") && !f.contains("inf"));
+    }
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap();
+    let runs = summary["runs"].as_array().unwrap();
+    assert_eq!(runs[0]["outcome"], "cycles");
+    assert!(runs[0]["cycle"]["period_yr"].as_f64().unwrap() > 1e8);
+    assert_eq!(runs[3]["outcome"], "settles");
+    assert_eq!(summary["cycle_csv"]["outgassing_bar_per_gyr"], 0.1);
+    for f in ["thermostat.svg", "thermostat.png", "scenario.toml"] {
+        assert!(d.join(f).exists(), "{f}");
+    }
+}
+
+// Bad input exits 2 with one line naming the field, its value and the
+// allowed range, and writes nothing (common practice, no source).
+#[test]
+fn bad_input_exits_2_naming_the_field() {
+    let d = temp_dir("thermostat-bad");
+    let out = d.join("set");
+    let cases: [(&[&str], &[&str]); 5] = [
+        (
+            &["--outgassing", "-1:2:3"],
+            &["--outgassing", "FROM = -1", "> 0"],
+        ),
+        (&["--outgassing", "0"], &["--outgassing", "V = 0", "> 0"]),
+        (
+            &["--set", "weathering.outgassing=-2"],
+            &["weathering.outgassing", "-2", "> 0"],
+        ),
+        (
+            &["--set", "weathering.co2_exponent=3"],
+            &["weathering.co2_exponent", "3", "0 to 2"],
+        ),
+        (
+            &["--co2", "0:100"],
+            &["--co2", "radiation.co2_ppm", "0.001"],
+        ),
+    ];
+    for (extra, words) in cases {
+        let mut argv = vec![
+            "thermostat",
+            "scenarios/outer-edge.toml",
+            "--out",
+            out.to_str().unwrap(),
+        ];
+        argv.extend_from_slice(extra);
+        let (code, _, stderr) = icefold(&argv);
+        assert_eq!(code, 2, "{extra:?}: {stderr}");
+        assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
+        for w in words {
+            assert!(stderr.contains(w), "{extra:?}: `{w}` not in {stderr}");
+        }
+        assert!(!out.exists());
+    }
+    // a computation that fails exits 1 and writes nothing: this planet
+    // settles at the present outgassing, so it has no cycle to write
+    let (code, _, stderr) = icefold(&[
+        "thermostat",
+        "scenarios/outer-edge.toml",
+        "--cycle-at",
+        "7",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(stderr.contains("does not cycle"), "{stderr}");
+    assert!(!out.exists());
 }

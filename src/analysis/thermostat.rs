@@ -58,6 +58,7 @@ struct Node {
     w: f64,
     global_mean_c: f64,
     ice: f64,
+    ice_edge_deg: f64,
     state: State,
     unstable: usize,
     temperature: Vec<f64>,
@@ -151,6 +152,23 @@ pub struct SlowEquilibrium {
     pub refined: bool,
     /// The fast climate, °C per band.
     pub temperature: Vec<f64>,
+}
+
+/// One traced state as the slow flow sees it (a fold counts as unstable).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CurvePoint {
+    /// CO2, ppm.
+    pub co2_ppm: f64,
+    /// Global-mean temperature, °C.
+    pub global_mean_c: f64,
+    /// Weathering W, bar Gyr-1.
+    pub weathering: f64,
+    /// The northern hemisphere's most poleward ice edge, deg.
+    pub ice_edge_deg: f64,
+    /// Fast-stable (no unstable mode; folds are not).
+    pub stable: bool,
+    /// State of the fast climate.
+    pub state: State,
 }
 
 /// One sample of the limit cycle.
@@ -270,6 +288,7 @@ fn node(model: &Model, law: &Weathering, q: &TracedPoint, unstable: usize) -> No
         w: traced_weathering(model, law, &q.temperature, q.p, d.ice_area_fraction),
         global_mean_c: d.global_mean_c,
         ice: d.ice_area_fraction,
+        ice_edge_deg: d.ice_edge_north_deg,
         state: d.state,
         unstable,
         temperature: q.temperature.clone(),
@@ -383,15 +402,22 @@ impl Thermostat {
         &self.law
     }
 
-    /// Every branch as (id, CO2 ppm, global mean °C, W bar Gyr-1, stable)
-    /// per state, folds included (for figures of the nullcline).
-    pub fn branch_curves(&self) -> Vec<(usize, Vec<(f64, f64, f64, bool, State)>)> {
+    /// Every branch as (id, its states, folds included), for figures of the
+    /// nullcline and for checks.
+    pub fn branch_curves(&self) -> Vec<(usize, Vec<CurvePoint>)> {
         self.branches
             .iter()
             .map(|(id, nodes)| {
                 let pts = nodes
                     .iter()
-                    .map(|n| (n.p, n.global_mean_c, n.w, n.unstable == 0, n.state))
+                    .map(|n| CurvePoint {
+                        co2_ppm: n.p,
+                        global_mean_c: n.global_mean_c,
+                        weathering: n.w,
+                        ice_edge_deg: n.ice_edge_deg,
+                        stable: n.unstable == 0,
+                        state: n.state,
+                    })
                     .collect();
                 (*id, pts)
             })

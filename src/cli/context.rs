@@ -75,6 +75,12 @@ pub struct Args {
     pub fold_curves: bool,
     /// `--hierarchy` (trace).
     pub hierarchy: bool,
+    /// `--outgassing V|FROM:TO:COUNT` (thermostat).
+    pub outgassing: Option<String>,
+    /// `--co2 FROM:TO` (thermostat).
+    pub co2: Option<String>,
+    /// `--cycle-at V` (thermostat).
+    pub cycle_at: Option<String>,
     /// Further positional arguments (merge: shard directories).
     pub rest: Vec<PathBuf>,
     /// The command line as given (provenance).
