@@ -39,7 +39,8 @@ fn outgassing_value(flag: &str, text: &str, field: &str) -> Result<f64, CliError
     Ok(v)
 }
 
-/// `--outgassing V` or `FROM:TO:COUNT` (evenly spaced, ends included).
+/// `--outgassing V` or `FROM:TO:COUNT` (evenly spaced, ends included,
+/// rounded to 12 significant digits as `trace` rounds its range ends).
 pub fn parse_outgassing(text: &str) -> Result<Vec<f64>, CliError> {
     let flag = "--outgassing";
     let parts: Vec<&str> = text.split(':').collect();
@@ -63,7 +64,7 @@ pub fn parse_outgassing(text: &str) -> Result<Vec<f64>, CliError> {
                 )));
             }
             Ok((0..count)
-                .map(|k| from + (to - from) * k as f64 / (count - 1) as f64)
+                .map(|k| super::trace::decimal(from + (to - from) * k as f64 / (count - 1) as f64))
                 .collect())
         }
         _ => Err(usage(format!(
