@@ -424,7 +424,7 @@ pub const SCHEMA: &[KeySpec] = &[
     },
     KeySpec {
         key: "weathering.efold_temperature",
-        label: "Weathering e-folding temperature T_e",
+        label: "Weathering e-folding temperature Te",
         kind: pos(1000.0),
         default: "13.7",
         unit: "K",
