@@ -21,7 +21,9 @@
 //! - [`model`]: the laws assembled into the annual-mean residual F(T; p) and
 //!   its tridiagonal Jacobian ([`Model`]), the seasonal model, diagnostics.
 //! - [`analysis`]: every branch and fold ([`trace_all`]), regime maps
-//!   ([`analysis::sweep`]), fold curves, periodic climates ([`find_periodic`]).
+//!   ([`analysis::sweep`]), fold curves, periodic climates ([`find_periodic`]),
+//!   the weathering thermostat and its limit cycles
+//!   ([`analysis::thermostat`]).
 //! - [`io`]: the scenario schema ([`Scenario`]), tables, NetCDF, figures;
 //!   output modules only read results.
 //! - [`cli`]: one file per command over a shared context.

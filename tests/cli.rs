@@ -262,6 +262,7 @@ fn every_command_has_help_and_the_tool_a_version() {
         "periodic",
         "run",
         "sun",
+        "thermostat",
         "check",
         "figures",
         "completions",

@@ -51,6 +51,7 @@ __all__ = [
     "periodic",
     "run",
     "sun",
+    "thermostat",
     "to_files",
     "to_netcdf",
     "load",
@@ -76,6 +77,14 @@ _UNITS = {
     "residual_wm2": ("W m-2", None),
     "residual_k": ("K", None),
     "jump_time_yr": ("year", None),
+    "period_yr": ("year", None),
+    "snowball_yr": ("year", None),
+    "time_yr": ("year", None),
+    "co2_ppm": ("1e-6", None),
+    "co2_min_ppm": ("1e-6", None),
+    "co2_max_ppm": ("1e-6", None),
+    "outgassing_bar_per_gyr": ("bar Gyr-1", None),
+    "weathering_bar_per_gyr": ("bar Gyr-1", None),
     "orbit.flux": ("W m-2", None),
     "orbit.obliquity": ("degree", None),
     "radiation.co2_ppm": ("1e-6", None),
@@ -150,6 +159,9 @@ def _column(values: List[str]) -> np.ndarray:
     command held, bit for bit)."""
     if values and all(v in ("true", "false") for v in values):
         return np.array([v == "true" for v in values])
+    if any(v in ("true", "false") for v in values) and all(v in ("true", "false", "") for v in values):
+        # a yes/no that does not apply everywhere: 1, 0, NaN where empty
+        return np.array([{"true": 1.0, "false": 0.0}.get(v, np.nan) for v in values])
     try:
         return np.array([int(v) for v in values], dtype=np.int64)
     except ValueError:
@@ -219,7 +231,7 @@ def _dataset(
             _, cols = _table(files[fname])
             # beside a grid every table is prefixed (its columns would
             # otherwise collide with the grid's coordinates)
-            bare = grid is None and dim in ("point", "latitude")
+            bare = grid is None and dim in ("point", "latitude", "run")
             _add(variables, dim, cols, "" if bare else f"{dim}_")
     # one call (assigning variables one by one is slow)
     grid_attrs: Dict[str, Any] = {}
@@ -415,3 +427,30 @@ def sun(
     return _dataset(
         "sun", text, files, {"insolation.csv": "sample", "annual_insolation.csv": "latitude"}
     )
+
+
+def thermostat(
+    scenario: PathLike = None,
+    sets: Optional[Mapping[str, Any]] = None,
+    *,
+    outgassing: Union[float, str],
+    co2: Optional[str] = None,
+    cycle_at: Optional[float] = None,
+    figures: bool = False,
+    progress: bool = False,
+    **overrides: Any,
+) -> xr.Dataset:
+    """The carbonate-silicate thermostat (``icefold thermostat``): for each
+    outgassing rate V (bar Gyr-1; a number or ``"FROM:TO:COUNT"``) whether
+    the planet settles (CO2 in ppm, temperature in degC, stabilities) or
+    cycles (period and time in snowball in years, CO2 and temperature
+    ranges), along ``run`` with ``outgassing_bar_per_gyr`` as coordinate;
+    one cycle's time series along ``cycle`` (``cycle_*``). ``co2`` is
+    ``--co2 FROM:TO`` (ppm), ``cycle_at`` ``--cycle-at V``."""
+    opts = [("outgassing", outgassing), ("co2", co2), ("cycle-at", cycle_at)]
+    text, files = _call("thermostat", scenario, sets, overrides, opts, figures, progress)
+    ds = _dataset("thermostat", text, files, {"thermostat.csv": "run", "cycle.csv": "cycle"})
+    if "outgassing_bar_per_gyr" in ds:
+        ds = ds.set_coords("outgassing_bar_per_gyr")
+        _keep(ds, files)
+    return ds

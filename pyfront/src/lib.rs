@@ -32,8 +32,8 @@ const OUT: &str = "icefold-output";
 
 /// The options a command takes, as (name, text) pairs in the command
 /// line's spelling without dashes (`vary`, `from`, `to`, `across`,
-/// `cells`, `threads`, `shard`, `years`, `start`; flags `fold-curves`,
-/// `hierarchy` with the text "true").
+/// `cells`, `threads`, `shard`, `years`, `start`, `outgassing`, `co2`,
+/// `cycle-at`; flags `fold-curves`, `hierarchy` with the text "true").
 fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
     for (k, v) in options {
         match k.as_str() {
@@ -48,9 +48,12 @@ fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
             "start" => args.start = Some(PathBuf::from(v)),
             "fold-curves" => args.fold_curves = v == "true",
             "hierarchy" => args.hierarchy = v == "true",
+            "outgassing" => args.outgassing = Some(v),
+            "co2" => args.co2 = Some(v),
+            "cycle-at" => args.cycle_at = Some(v),
             other => {
                 return Err(PyValueError::new_err(format!(
-                    "unknown option `{other}` (allowed: vary, from, to, across, cells, threads, shard, years, start, fold-curves, hierarchy)"
+                    "unknown option `{other}` (allowed: vary, from, to, across, cells, threads, shard, years, start, fold-curves, hierarchy, outgassing, co2, cycle-at)"
                 )));
             }
         }
@@ -67,7 +70,8 @@ fn to_py_err(e: CliError) -> PyErr {
     }
 }
 
-/// Runs `command` (solve, trace, map, periodic, run, sun, check) on the
+/// Runs `command` (solve, trace, map, periodic, run, sun, thermostat,
+/// check) on the
 /// scenario at `scenario` (None: the built-in default) with `sets`
 /// (`section.key=value`, as `--set`) and `options`; returns (the text the
 /// command prints, [(file name, bytes)] of the files it would write).

@@ -4,10 +4,13 @@
 //! ([`jumps`]), regime maps over two parameters ([`sweep`]), folds continued
 //! in two parameters ([`foldcurve`]), periodic climates by shooting
 //! ([`periodic`]) and sampled through their year ([`cycle`]), every equilibrium of the linear step-albedo model
-//! parametrised by its ice edge ([`skeleton`]), and how far each fold moves
-//! with every other parameter ([`sensitivity`]).
+//! parametrised by its ice edge ([`skeleton`]), how far each fold moves
+//! with every other parameter ([`sensitivity`]), and the carbonate-silicate
+//! thermostat on the traced CO2 branches ([`thermostat`]) with its
+//! independent time integration ([`coupled`]).
 
 pub mod branches;
+pub mod coupled;
 pub mod cycle;
 pub mod edgetrace;
 pub mod foldcurve;
@@ -16,3 +19,4 @@ pub mod periodic;
 pub mod sensitivity;
 pub mod skeleton;
 pub mod sweep;
+pub mod thermostat;

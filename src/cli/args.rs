@@ -46,6 +46,10 @@ pub enum Command {
     Periodic(SolveCmd),
     /// Integrate the seasonal model in time.
     Run(RunCmd),
+    /// The carbonate-silicate thermostat: for each outgassing rate, the
+    /// slow CO2 equilibria on the fast climate's branches, or the snowball
+    /// limit cycle with its period.
+    Thermostat(ThermostatCmd),
     /// Daily-mean and annual-mean insolation of the scenario's orbit.
     Sun(ScenarioCmd),
     /// Validate the scenario and print it fully resolved, with units.
@@ -222,6 +226,28 @@ pub struct RunCmd {
     pub output: OutputOpts,
 }
 
+/// `thermostat`.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct ThermostatCmd {
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub scenario: ScenarioOpts,
+    /// Outgassing rates V in bar Gyr-1: one value, or FROM:TO:COUNT evenly
+    /// spaced, ends included (default: the scenario's weathering.outgassing).
+    #[arg(long, value_name = "V|FROM:TO:COUNT", allow_hyphen_values = true)]
+    pub outgassing: Option<String>,
+    /// CO2 range of the trace of the fast climate, ppm (default 1:1000000).
+    #[arg(long, value_name = "FROM:TO", allow_hyphen_values = true)]
+    pub co2: Option<String>,
+    /// Write the cycle of this outgassing rate to cycle.csv (default: the
+    /// first rate that cycles).
+    #[arg(long, value_name = "V", allow_hyphen_values = true)]
+    pub cycle_at: Option<String>,
+    #[command(flatten)]
+    #[allow(missing_docs)]
+    pub output: OutputOpts,
+}
+
 /// `figures`.
 #[derive(Debug, Clone, Default, clap::Args)]
 pub struct FiguresCmd {
@@ -292,6 +318,12 @@ impl Cli {
                 years: Some(c.years),
                 from: c.from,
                 ..base("run", c.scenario, c.output, line)
+            },
+            Command::Thermostat(c) => Args {
+                outgassing: c.outgassing,
+                co2: c.co2,
+                cycle_at: c.cycle_at,
+                ..base("thermostat", c.scenario, c.output, line)
             },
             Command::Sun(c) => base("sun", c.scenario, c.output, line),
             Command::Check(c) => base("check", c.scenario, OutputOpts::default(), line),

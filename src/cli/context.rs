@@ -84,6 +84,12 @@ pub struct Args {
     /// at its next check ([`cancelled`]): it then fails with
     /// "interrupted" and writes nothing.
     pub cancel: Option<std::sync::Arc<std::sync::atomic::AtomicBool>>,
+    /// `--outgassing V|FROM:TO:COUNT` (thermostat).
+    pub outgassing: Option<String>,
+    /// `--co2 FROM:TO` (thermostat).
+    pub co2: Option<String>,
+    /// `--cycle-at V` (thermostat).
+    pub cycle_at: Option<String>,
     /// Further positional arguments (merge: shard directories).
     pub rest: Vec<PathBuf>,
     /// The command line as given (provenance).

@@ -53,5 +53,25 @@ pub fn cmd_figures(args: &Args) -> Result<String, CliError> {
         ..Args::default()
     };
     s += &super::trace::cmd_trace(&a)?;
+    // the thermostat of the invented outer-edge planet
+    let outer = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("scenarios/outer-edge.toml");
+    let out = dir.join("thermostat");
+    let a = Args {
+        command: "thermostat".into(),
+        scenario: Some(outer.clone()),
+        out: Some(out.clone()),
+        quiet: args.quiet,
+        outgassing: Some(README_OUTGASSING.into()),
+        line: format!(
+            "icefold thermostat {} --outgassing {README_OUTGASSING} --out {}",
+            outer.display(),
+            out.display()
+        ),
+        ..Args::default()
+    };
+    s += &super::thermostat::cmd_thermostat(&a)?;
     Ok(s)
 }
+
+/// The outgassing rates of the README's thermostat example, bar Gyr-1.
+pub const README_OUTGASSING: &str = "0.1:1:10";

@@ -14,6 +14,7 @@ pub mod shard;
 pub mod solve;
 pub mod state;
 pub mod sun;
+pub mod thermostat;
 pub mod trace;
 
 pub use context::{Args, CliError, VERSION};
@@ -22,7 +23,16 @@ pub use context::{Args, CliError, VERSION};
 pub fn run(args: &Args) -> Result<String, CliError> {
     // refuse an unusable --out before computing (the full check is made
     // again when the outputs are published)
-    let writes = ["solve", "sun", "trace", "map", "merge", "run", "periodic"];
+    let writes = [
+        "solve",
+        "sun",
+        "trace",
+        "map",
+        "merge",
+        "run",
+        "periodic",
+        "thermostat",
+    ];
     if writes.contains(&args.command.as_str()) && args.capture.is_none() {
         let dir = match (&args.out, args.command.as_str()) {
             (Some(d), _) => d.clone(),
@@ -53,6 +63,7 @@ pub fn run(args: &Args) -> Result<String, CliError> {
         "solve" => solve::cmd_solve(args),
         "sun" => sun::cmd_sun(args),
         "trace" => trace::cmd_trace(args),
+        "thermostat" => thermostat::cmd_thermostat(args),
         "map" => map::cmd_map(args),
         "merge" => shard::cmd_merge(args),
         "run" => {

@@ -396,6 +396,19 @@ impl Scenario {
         )
     }
 
+    /// The weathering law of `[weathering]`
+    /// ([`crate::physics::weathering`]); the outgassing is
+    /// `num("weathering.outgassing")`.
+    pub fn weathering(&self) -> crate::physics::weathering::Weathering {
+        crate::physics::weathering::Weathering {
+            present_rate: self.num("weathering.present_rate"),
+            co2_exponent: self.num("weathering.co2_exponent"),
+            efold_k: self.num("weathering.efold_temperature"),
+            reference_c: self.num("weathering.reference_temperature"),
+            reference_ppm: self.num("weathering.reference_co2_ppm"),
+        }
+    }
+
     /// The planet's physics.
     pub fn planet(&self) -> Planet {
         let orbit = Orbit {

@@ -355,6 +355,53 @@ impl Model {
         out
     }
 
+    /// The open (ice-free) surface of profile `t`: its area fraction
+    /// 1 - f_ice and its area-weighted mean temperature (°C),
+    /// T_w = Σ w_i (1 - f_i) T_i / Σ w_i (1 - f_i), with f_i the ice share
+    /// of band i by the same rule as [`Model::ice_area_fraction`] (the
+    /// sub-grid edge, the relaxation ramp or the smooth law) and T_i the
+    /// band's temperature. A snowball gives (0, 0): with no open surface
+    /// the mean is undefined and returned as 0 °C. Allocates nothing.
+    pub fn open_surface(&self, t: &[f64]) -> (f64, f64) {
+        let (mut area, mut sum) = (0.0, 0.0);
+        for (i, (&w, &ti)) in self.grid.weights.iter().zip(t).enumerate() {
+            let ice = match self.planet.albedo.kind {
+                AlbedoKind::Step
+                    if matches!(self.planet.transport, Transport::Relaxation { .. }) =>
+                {
+                    self.relaxation_ice_fraction(i, ti).0
+                }
+                AlbedoKind::Step => {
+                    let mut len = 0.0;
+                    for k in [2 * i, 2 * i + 1] {
+                        let h = self.half[k];
+                        len += match self.half_ice(k, t) {
+                            HalfIce::Open => 0.0,
+                            HalfIce::Ice => h.hi - h.lo,
+                            HalfIce::Edge { x, ice_above, .. } => {
+                                if ice_above {
+                                    h.hi - x
+                                } else {
+                                    x - h.lo
+                                }
+                            }
+                        };
+                    }
+                    len / self.grid.width(i)
+                }
+                AlbedoKind::Smooth { .. } => self.planet.albedo.ice_weight(ti).0,
+            };
+            let open = w * (1.0 - ice.clamp(0.0, 1.0));
+            area += open;
+            sum += open * ti;
+        }
+        if area > 0.0 {
+            (area.min(1.0), sum / area)
+        } else {
+            (0.0, 0.0)
+        }
+    }
+
     /// Ice area fraction of the planet: the covered length in x over the
     /// domain length (step law), or Σ w_i f(T_i) (smooth law).
     pub fn ice_area_fraction(&self, t: &[f64]) -> f64 {

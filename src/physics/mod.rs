@@ -12,6 +12,8 @@
 //!   static energy, Hwang & Frierson 2010), as finite-volume divergences.
 //! - [`humidity`]: saturation vapour pressure (Bolton 1980), saturation
 //!   specific humidity and moist static energy.
+//! - [`weathering`]: silicate weathering on the open surface, the slow CO2
+//!   sink (Walker, Hays & Kasting 1981).
 
 pub mod albedo;
 pub mod humidity;
@@ -19,3 +21,4 @@ pub mod insolation;
 pub mod orbit;
 pub mod radiation;
 pub mod transport;
+pub mod weathering;

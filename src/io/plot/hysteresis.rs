@@ -29,12 +29,12 @@ struct HystPaint<'a> {
 
 /// A maximal piece of a branch of one state and stability.
 #[derive(Clone, Debug, PartialEq)]
-struct Run {
-    state: String,
-    stable: bool,
+pub(super) struct Run {
+    pub(super) state: String,
+    pub(super) stable: bool,
     /// Indices into the branch, consecutive.
-    points: Vec<usize>,
-    branch: usize,
+    pub(super) points: Vec<usize>,
+    pub(super) branch: usize,
 }
 
 /// Ice-edge latitude (top) and global-mean temperature (bottom) along
@@ -116,7 +116,7 @@ pub fn hysteresis_figure(
 /// Split a branch into runs of one state and stability. The segment from
 /// point i-1 to i belongs to the state of point i and is stable when both
 /// ends are; consecutive runs share their joining point.
-fn state_runs(branch: usize, state: &[String], stable: &[bool]) -> Vec<Run> {
+pub(super) fn state_runs(branch: usize, state: &[String], stable: &[bool]) -> Vec<Run> {
     let mut runs: Vec<Run> = Vec::new();
     if state.len() == 1 {
         return vec![Run {
@@ -141,8 +141,14 @@ fn state_runs(branch: usize, state: &[String], stable: &[bool]) -> Vec<Run> {
     runs
 }
 
+/// Colour, stroke and marker of a run (state colour; solid and filled if
+/// stable, dashed and open if not).
+pub(super) fn run_style(r: &Run) -> (RGBColor, Stroke, Mark) {
+    HystPaint::run_style(r)
+}
+
 /// Order of states in the legend.
-fn state_rank(label: &str) -> usize {
+pub(super) fn state_rank(label: &str) -> usize {
     ["ice-free", "polar-caps", "equatorial-belt", "snowball"]
         .iter()
         .position(|s| *s == label)

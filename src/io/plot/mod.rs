@@ -40,6 +40,7 @@ mod profile;
 mod regime;
 mod render;
 mod style;
+mod thermostat;
 
 #[cfg(doc)]
 use crate::io::export::ExportError;
@@ -50,6 +51,7 @@ pub use hierarchy::{ModelCurves, hierarchy_figure};
 pub use hysteresis::hysteresis_figure;
 pub use profile::profile_figure;
 pub use regime::regime_figure;
+pub use thermostat::{ThermostatPlot, thermostat_figure};
 
 /// Width of every figure, in pixels.
 pub const FIGURE_WIDTH: u32 = 1000;
