@@ -61,6 +61,26 @@ fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
     Ok(())
 }
 
+/// The command's `Args` as the command line would build them, with the
+/// outputs named under a directory that is never written.
+fn command_args(
+    command: String,
+    scenario: Option<PathBuf>,
+    sets: Vec<String>,
+    options: Vec<(String, String)>,
+) -> PyResult<Args> {
+    let mut args = Args {
+        line: format!("icefold {command} (Python)"),
+        command,
+        scenario,
+        sets,
+        out: Some(PathBuf::from(OUT)),
+        ..Args::default()
+    };
+    apply(&mut args, options)?;
+    Ok(args)
+}
+
 fn to_py_err(e: CliError) -> PyErr {
     let text = e.to_string();
     match e.exit_code() {
@@ -91,19 +111,13 @@ fn run(
 ) -> PyResult<(String, Vec<(String, Py<PyBytes>)>)> {
     let capture = Arc::new(Mutex::new(Vec::new()));
     let cancel = Arc::new(AtomicBool::new(false));
-    let mut args = Args {
-        line: format!("icefold {command} (Python)"),
-        command,
-        scenario,
-        sets,
-        out: Some(PathBuf::from(OUT)),
+    let args = Args {
         quiet,
         no_figures: !figures,
         capture: Some(capture.clone()),
         cancel: Some(cancel.clone()),
-        ..Args::default()
+        ..command_args(command, scenario, sets, options)?
     };
-    apply(&mut args, options)?;
     // the worker hands its result over a channel, so the call returns the
     // moment it is done; between waits the caller looks for Ctrl-C
     let outcome = py.allow_threads(|| {
@@ -263,17 +277,11 @@ fn library_seconds(
     options: Vec<(String, String)>,
     repeats: usize,
 ) -> PyResult<f64> {
-    let mut args = Args {
-        line: format!("icefold {command} (Python)"),
-        command,
-        scenario,
-        sets,
-        out: Some(PathBuf::from(OUT)),
+    let args = Args {
         quiet: true,
         no_figures: true,
-        ..Args::default()
+        ..command_args(command, scenario, sets, options)?
     };
-    apply(&mut args, options)?;
     let repeats = repeats.max(1);
     py.allow_threads(|| {
         let t = std::time::Instant::now();
