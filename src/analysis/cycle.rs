@@ -170,6 +170,73 @@ pub fn cycle(sm: &mut SeasonalModel, u: &[f64]) -> Result<Cycle, SeasonalError> 
     })
 }
 
+/// What a traced point needs of its cycle, without the rest of
+/// [`cycle`]: the annual-mean profile Σ_k s_k / N, the annual mean of the
+/// profiles that mark the ice ([`Cycle::ice_profiles`]) and the year mean
+/// of the habitable fraction, over the same samples s_k and in the same
+/// order as [`cycle`] (so each equals its counterpart there bit for bit),
+/// skipping the per-step fluxes, edges, areas and thicknesses.
+pub fn cycle_summary(
+    sm: &mut SeasonalModel,
+    u: &[f64],
+) -> Result<(Vec<f64>, Vec<f64>, f64), SeasonalError> {
+    let n = sm.len();
+    let steps = sm.steps_per_year();
+    let mut t = u.to_vec();
+    // per step after the first sample: surface temperature and ice profile
+    let mut surface = Vec::with_capacity(steps * n);
+    let mut ice = Vec::with_capacity(steps * n);
+    for k in 0..steps {
+        sm.step(k, &mut t, false)?;
+        surface.extend_from_slice(sm.surface_temperature(&t));
+        ice.extend(sm.ice_profile(&t));
+    }
+    let first_surface = if sm.has_sea_ice() {
+        surface[(steps - 1) * n..].to_vec()
+    } else {
+        u.to_vec()
+    };
+    let first_ice = sm.ice_profile(u);
+    let sample = |all: &[f64], first: &[f64], k: usize| -> Vec<f64> {
+        if k == 0 {
+            first.to_vec()
+        } else {
+            all[(k - 1) * n..k * n].to_vec()
+        }
+    };
+    let model = sm.model();
+    let mut annual = vec![0.0; n];
+    let mut ice_mean = vec![0.0; n];
+    let mut habitable = 0.0;
+    for k in 0..steps {
+        let s = sample(&surface, &first_surface, k);
+        let p = sample(&ice, &first_ice, k);
+        for i in 0..n {
+            annual[i] += s[i] / steps as f64;
+            ice_mean[i] += p[i] / steps as f64;
+        }
+        habitable += model.habitable_fraction(&s);
+    }
+    Ok((annual, ice_mean, (habitable / steps as f64).clamp(0.0, 1.0)))
+}
+
+/// [`cycle_diagnostics`] from a [`cycle_summary`]'s annual-mean profile
+/// and ice mean.
+pub fn summary_diagnostics(
+    annual_model: &Model,
+    annual_mean: &[f64],
+    ice_mean: &[f64],
+) -> crate::model::climate::Diagnostics {
+    if ice_mean == annual_mean {
+        return diagnose(annual_model, annual_mean);
+    }
+    let t = diagnose(annual_model, annual_mean);
+    let mut d = diagnose(annual_model, ice_mean);
+    d.global_mean_c = t.global_mean_c;
+    d.energy_imbalance = t.energy_imbalance;
+    d
+}
+
 /// Diagnostics of a cycle's annual-mean profile under the annual-mean
 /// insolation: the temperatures from the annual-mean surface temperature,
 /// the ice (area, edges, state, albedo) from the annual mean of the
@@ -184,12 +251,45 @@ pub fn cycle_diagnostics(annual_model: &Model, c: &Cycle) -> crate::model::clima
             ice[i] += p[i] / steps;
         }
     }
-    if ice == c.annual_mean {
-        return diagnose(annual_model, &c.annual_mean);
+    summary_diagnostics(annual_model, &c.annual_mean, &ice)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::scenario::Scenario;
+
+    /// The summary a traced point uses equals the full cycle's fields bit
+    /// for bit, with and without sea ice (common practice, no source: two
+    /// codes for one sum).
+    #[test]
+    fn cycle_summary_equals_the_full_cycle() {
+        let small = [
+            "grid.bands=16".to_string(),
+            "seasons.steps_per_year=12".to_string(),
+        ];
+        let sea_ice = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/sea-ice.toml");
+        for path in [None, Some(std::path::Path::new(sea_ice))] {
+            let mut sets = small.to_vec();
+            sets.push("seasons.enabled=true".into());
+            let sc = Scenario::load(path, &sets).unwrap();
+            let mut sm = sc.seasonal_model().unwrap();
+            let n = sm.len();
+            let mut u = sm.state_from_temperature(&vec![5.0; n]);
+            for _ in 0..5 {
+                sm.year(&mut u).unwrap();
+            }
+            let c = cycle(&mut sm, &u).unwrap();
+            let (annual, ice, habitable) = cycle_summary(&mut sm, &u).unwrap();
+            assert_eq!(annual, c.annual_mean);
+            assert_eq!(habitable, c.habitable_year_mean);
+            let am = sm.annual_model();
+            assert_eq!(
+                format!("{:?}", summary_diagnostics(&am, &annual, &ice)),
+                format!("{:?}", cycle_diagnostics(&am, &c))
+            );
+            // a cycle with seasons: the samples differ
+            assert!(c.amplitude.iter().any(|a| *a > 0.1));
+        }
     }
-    let t = diagnose(annual_model, &c.annual_mean);
-    let mut d = diagnose(annual_model, &ice);
-    d.global_mean_c = t.global_mean_c;
-    d.energy_imbalance = t.energy_imbalance;
-    d
 }

@@ -592,13 +592,14 @@ fn seasonal_point(
 ) -> TracedPoint {
     sm.set_param(param, p);
     annual_model.set_param(param, p);
-    let (temperature, diagnostics) = match cycle(sm, u) {
-        Ok(c) => {
-            let mut d = cycle_diagnostics(annual_model, &c);
+    let (temperature, diagnostics) = match crate::analysis::cycle::cycle_summary(sm, u) {
+        Ok((annual_mean, ice_mean, habitable_year_mean)) => {
+            let mut d =
+                crate::analysis::cycle::summary_diagnostics(annual_model, &annual_mean, &ice_mean);
             // a periodic climate's habitable fraction is the year mean of
             // the instantaneous one, not that of its annual-mean profile
-            d.habitable_fraction = c.habitable_year_mean;
-            (c.annual_mean, d)
+            d.habitable_fraction = habitable_year_mean;
+            (annual_mean, d)
         }
         Err(_) => (u.to_vec(), diagnose(annual_model, u)),
     };
