@@ -132,19 +132,9 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
         )));
     }
     let key = param.key();
-    let mut points = Table::new(&[
-        "model",
-        "branch",
-        key,
-        "global_mean_temperature_c",
-        "ice_area_fraction",
-        "ice_edge_north_deg",
-        "state",
-        "stable",
-        "unstable_modes",
-        "residual",
-        "habitable_fraction",
-    ]);
+    let mut columns = vec!["model"];
+    columns.extend(super::trace::branch_columns(key));
+    let mut points = Table::new(&columns);
     let mut folds = Table::new(&[
         "model",
         "branch",
@@ -163,20 +153,9 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
         let name = MODELS[k].0;
         for b in &h.branches {
             for q in &b.points {
-                let d = &q.diagnostics;
-                points.push_row(vec![
-                    Cell::Text(name.into()),
-                    Cell::Int(b.id as i64),
-                    Cell::Num(q.p),
-                    Cell::Num(d.global_mean_c),
-                    Cell::Num(d.ice_area_fraction),
-                    Cell::Num(poleward_edge_deg(d)),
-                    Cell::Text(d.state.label().into()),
-                    Cell::Bool(q.unstable_modes == 0),
-                    Cell::modes(q.unstable_modes),
-                    Cell::Num(q.residual),
-                    Cell::Num(d.habitable_fraction),
-                ]);
+                let mut row = vec![Cell::Text(name.into())];
+                row.extend(super::trace::branch_row(b.id, q));
+                points.push_row(row);
             }
             for f in &b.folds {
                 let d = &f.point.diagnostics;

@@ -1,7 +1,9 @@
 //! `icefold trace`: every branch of equilibria in one parameter.
 use super::context::{Args, CliError, load, out_dir, provenance, written_list};
 use super::progress::Progress;
-use crate::analysis::branches::{Fold, Hysteresis, TraceOptions, poleward_edge_deg, trace_all};
+use crate::analysis::branches::{
+    Fold, Hysteresis, TraceOptions, TracedPoint, poleward_edge_deg, trace_all,
+};
 use crate::analysis::sensitivity::other_params;
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::plot::{self, BranchCurve, FoldMark};
@@ -492,9 +494,10 @@ fn residual_report(
     (json, line)
 }
 
-fn branches_table(h: &Hysteresis) -> Table {
-    let key = h.param.key();
-    let mut t = Table::new(&[
+/// The columns of `branches.csv` (and, after `model`, of `hierarchy.csv`),
+/// `key` the traced parameter.
+pub(super) fn branch_columns(key: &str) -> [&str; 10] {
+    [
         "branch",
         key,
         "global_mean_temperature_c",
@@ -505,22 +508,31 @@ fn branches_table(h: &Hysteresis) -> Table {
         "unstable_modes",
         "residual",
         "habitable_fraction",
-    ]);
+    ]
+}
+
+/// One traced point of branch `branch` as a row of [`branch_columns`].
+pub(super) fn branch_row(branch: usize, q: &TracedPoint) -> Vec<Cell> {
+    let d = &q.diagnostics;
+    vec![
+        Cell::Int(branch as i64),
+        Cell::Num(q.p),
+        Cell::Num(d.global_mean_c),
+        Cell::Num(d.ice_area_fraction),
+        Cell::Num(poleward_edge_deg(d)),
+        Cell::Text(d.state.label().into()),
+        Cell::Bool(q.unstable_modes == 0),
+        Cell::modes(q.unstable_modes),
+        Cell::Num(q.residual),
+        Cell::Num(d.habitable_fraction),
+    ]
+}
+
+fn branches_table(h: &Hysteresis) -> Table {
+    let mut t = Table::new(&branch_columns(h.param.key()));
     for b in &h.branches {
         for q in &b.points {
-            let d = &q.diagnostics;
-            t.push_row(vec![
-                Cell::Int(b.id as i64),
-                Cell::Num(q.p),
-                Cell::Num(d.global_mean_c),
-                Cell::Num(d.ice_area_fraction),
-                Cell::Num(poleward_edge_deg(d)),
-                Cell::Text(d.state.label().into()),
-                Cell::Bool(q.unstable_modes == 0),
-                Cell::modes(q.unstable_modes),
-                Cell::Num(q.residual),
-                Cell::Num(d.habitable_fraction),
-            ]);
+            t.push_row(branch_row(b.id, q));
         }
     }
     t
