@@ -26,7 +26,9 @@ use crate::model::climate::diagnose;
 use crate::model::{Model, Param};
 use crate::numerics::linalg::Tridiagonal;
 use crate::numerics::newton::max_abs;
-use crate::numerics::newton::{NewtonOptions, Workspace, implicit_step, newton, unstable_modes};
+use crate::numerics::newton::{
+    NewtonOptions, Workspace, implicit_step, implicit_step_from, newton, unstable_modes,
+};
 
 /// Settings of the jump integration.
 #[derive(Clone, Copy, Debug)]
@@ -97,11 +99,25 @@ pub struct JumpOutcome {
 /// Vectors of one integration, allocated once and reused by every step.
 struct Integrator {
     ws: Workspace,
+    /// F and J at the current state, shared by the growth check, the full
+    /// step and the first half step.
     jac: Tridiagonal,
     f: Vec<f64>,
+    /// J - C/(2 dt) for the growth check.
+    shifted: Tridiagonal,
     full: Vec<f64>,
     half: Vec<f64>,
+    /// The accepted states of the last run (n per step) and their times,
+    /// kept so that the transition can be timed against the target found
+    /// at the end without integrating again; at most `KEEP_STEPS` steps.
+    path: Vec<f64>,
+    path_times: Vec<f64>,
+    path_complete: bool,
 }
+
+/// Steps whose states a run keeps for timing (beyond it the timing run
+/// integrates again: the same steps, bit for bit).
+const KEEP_STEPS: usize = 20_000;
 
 /// Progress of one integration.
 struct Run {
@@ -109,6 +125,42 @@ struct Run {
     steps: usize,
     /// Times the state first went 1% and 99% of the way to a given target.
     crossings: [Option<f64>; 2],
+}
+
+/// Times at which the state first goes 1% and 99% of the way to a target
+/// T* from a start d₀ = max |T(0) - T*| away (see [`JumpOutcome::years`]).
+struct Timer<'a> {
+    target: &'a [f64],
+    d0: f64,
+    d_prev: f64,
+}
+
+impl<'a> Timer<'a> {
+    fn new(target: &'a [f64], d0: f64, start: &[f64]) -> Timer<'a> {
+        Timer {
+            target,
+            d0,
+            d_prev: max_diff(start, target),
+        }
+    }
+
+    /// An accepted step from time t0 of length dt ending at `t`: the
+    /// crossings, interpolated linearly within the step.
+    fn step(&mut self, t0: f64, dt: f64, t: &[f64], crossings: &mut [Option<f64>; 2]) {
+        let d = max_diff(t, self.target);
+        for (k, frac) in [0.99, 0.01].into_iter().enumerate() {
+            let level = frac * self.d0;
+            if crossings[k].is_none() && d <= level {
+                let r = if self.d_prev > d {
+                    ((self.d_prev - level) / (self.d_prev - d)).clamp(0.0, 1.0)
+                } else {
+                    1.0
+                };
+                crossings[k] = Some(t0 + r * dt);
+            }
+        }
+        self.d_prev = d;
+    }
 }
 
 fn max_diff(a: &[f64], b: &[f64]) -> f64 {
@@ -128,8 +180,12 @@ impl Integrator {
             ws: Workspace::new(model),
             jac: model.new_jacobian(),
             f: vec![0.0; n],
+            shifted: model.new_jacobian(),
             full: vec![0.0; n],
             half: vec![0.0; n],
+            path: Vec::new(),
+            path_times: Vec::new(),
+            path_complete: false,
         }
     }
 
@@ -137,13 +193,14 @@ impl Integrator {
     /// implicit step of dt would damp (and could converge onto) a growing
     /// mode, so dt must shrink. Counted in O(n) by Sturm sequences on
     /// J - C/(2 dt); `false` when the count is not available in O(n).
-    fn too_long_for_growth(&mut self, model: &Model, t: &[f64], dt: f64) -> bool {
-        model.evaluate(t, &mut self.f, Some(&mut self.jac));
+    /// J is the one of the current state, in `self.jac`.
+    fn too_long_for_growth(&mut self, model: &Model, dt: f64) -> bool {
+        self.shifted.copy_entries_from(&self.jac);
         let cap = &model.planet.heat_capacity;
-        for (d, c) in self.jac.diag.iter_mut().zip(cap) {
+        for (d, c) in self.shifted.diag.iter_mut().zip(cap) {
             *d -= c / (2.0 * dt);
         }
-        self.jac
+        self.shifted
             .count_positive_eigenvalues(cap)
             .is_some_and(|k| k > 0)
     }
@@ -174,7 +231,11 @@ impl Integrator {
         let mut dt = opts.first_step_yr;
         let dt_min = 1e-9;
         let mut tried = 0usize;
-        let mut d_prev = target.map_or(0.0, |(tt, _)| max_diff(t, tt));
+        let mut timer = target.map(|(tt, d0)| Timer::new(tt, d0, t));
+        // a run without a target keeps its path for [`Integrator::time_path`]
+        self.path.clear();
+        self.path_times.clear();
+        self.path_complete = target.is_none();
         loop {
             model.evaluate(t, &mut self.f, Some(&mut self.jac));
             let res = max_abs(&self.f);
@@ -199,13 +260,16 @@ impl Integrator {
                 ));
             }
             tried += 1;
-            while dt > dt_min && self.too_long_for_growth(model, t, dt) {
+            while dt > dt_min && self.too_long_for_growth(model, dt) {
                 dt *= 0.5;
             }
             self.full.copy_from_slice(t);
             self.half.copy_from_slice(t);
-            let ok = implicit_step(model, &mut self.full, dt, &mut self.ws).is_ok()
-                && implicit_step(model, &mut self.half, 0.5 * dt, &mut self.ws).is_ok()
+            let cap = &model.planet.heat_capacity;
+            let ok = implicit_step_from(&self.f, &self.jac, cap, &mut self.full, dt, &mut self.ws)
+                .is_ok()
+                && implicit_step_from(&self.f, &self.jac, cap, &mut self.half, 0.5 * dt, &mut self.ws)
+                    .is_ok()
                 && implicit_step(model, &mut self.half, 0.5 * dt, &mut self.ws).is_ok();
             let err = if ok {
                 max_diff(&self.full, &self.half)
@@ -217,20 +281,16 @@ impl Integrator {
                 let t0 = run.time;
                 run.time += dt;
                 run.steps += 1;
-                if let Some((tt, d0)) = target {
-                    let d = max_diff(t, tt);
-                    for (k, frac) in [0.99, 0.01].into_iter().enumerate() {
-                        let level = frac * d0;
-                        if run.crossings[k].is_none() && d <= level {
-                            let r = if d_prev > d {
-                                ((d_prev - level) / (d_prev - d)).clamp(0.0, 1.0)
-                            } else {
-                                1.0
-                            };
-                            run.crossings[k] = Some(t0 + r * dt);
-                        }
+                if let Some(timer) = timer.as_mut() {
+                    timer.step(t0, dt, t, &mut run.crossings);
+                }
+                if self.path_complete {
+                    if self.path_times.len() < KEEP_STEPS {
+                        self.path.extend_from_slice(t);
+                        self.path_times.push(dt);
+                    } else {
+                        self.path_complete = false;
                     }
-                    d_prev = d;
                 }
             } else if dt <= dt_min {
                 return Err(format!(
@@ -245,6 +305,25 @@ impl Integrator {
             };
             dt = (dt * scale).clamp(dt_min, opts.max_step_yr);
         }
+    }
+
+    /// The crossings of [`Integrator::run`] with `target` = (T*, d₀) from
+    /// `start`, read off the path the last run (without a target, from
+    /// `start`) kept: the same steps, so the same times bit for bit. `None`
+    /// when the path was too long to keep.
+    fn time_path(&self, start: &[f64], target: &[f64], d0: f64) -> Option<[Option<f64>; 2]> {
+        if !self.path_complete {
+            return None;
+        }
+        let n = start.len();
+        let mut timer = Timer::new(target, d0, start);
+        let (mut time, mut crossings) = (0.0, [None, None]);
+        for (k, &dt) in self.path_times.iter().enumerate() {
+            let t0 = time;
+            time += dt;
+            timer.step(t0, dt, &self.path[k * n..(k + 1) * n], &mut crossings);
+        }
+        Some(crossings)
     }
 }
 
@@ -395,11 +474,17 @@ pub fn jump_from_fold(
             run.time
         ));
     }
-    // pass 2: the same steps again, timing the transition towards T*
+    // pass 2: the same steps, kept by pass 1 (or integrated again when too
+    // many to keep), timed against the transition towards T*
     let d0 = max_diff(&start, &t);
-    let mut again = start;
-    let timed = integ.run(&m, &mut again, opts, Some((&t, d0)))?;
-    let years = match timed.crossings {
+    let crossings = match integ.time_path(&start, &t, d0) {
+        Some(c) => c,
+        None => {
+            let mut again = start;
+            integ.run(&m, &mut again, opts, Some((&t, d0)))?.crossings
+        }
+    };
+    let years = match crossings {
         [Some(a), Some(b)] => b - a,
         _ => {
             return Err(format!(

@@ -53,6 +53,23 @@ impl Tridiagonal {
         }
     }
 
+    /// Copies the entries of `other` (same size), rank-one term included,
+    /// without allocating when the sizes already match; the factors are
+    /// left stale (call [`Tridiagonal::factor`]).
+    pub fn copy_entries_from(&mut self, other: &Tridiagonal) {
+        self.lower.copy_from_slice(&other.lower);
+        self.diag.copy_from_slice(&other.diag);
+        self.upper.copy_from_slice(&other.upper);
+        match (&mut self.rank_one, &other.rank_one) {
+            (Some((u, v)), Some((ou, ov))) => {
+                u.copy_from_slice(ou);
+                v.copy_from_slice(ov);
+            }
+            (mine, theirs) => mine.clone_from(theirs),
+        }
+        self.factored = false;
+    }
+
     /// Dimension.
     pub fn len(&self) -> usize {
         self.diag.len()

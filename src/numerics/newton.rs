@@ -253,7 +253,34 @@ pub fn implicit_step<M: Steady + ?Sized>(
     ws: &mut Workspace,
 ) -> Result<(), SolveError> {
     model.evaluate(t, &mut ws.f, Some(&mut ws.jac));
-    for (i, c) in model.heat_capacity().iter().enumerate() {
+    shifted_step(model.heat_capacity(), t, dt, ws)
+}
+
+/// The step of [`implicit_step`] from F(Tⁿ) and J(Tⁿ) already evaluated
+/// (`f`, `jac`; left untouched): several steps from one state (a step and
+/// its two halves) then share one evaluation. Same arithmetic, so the same
+/// result bit for bit.
+pub fn implicit_step_from(
+    f: &[f64],
+    jac: &Tridiagonal,
+    heat_capacity: &[f64],
+    t: &mut [f64],
+    dt: f64,
+    ws: &mut Workspace,
+) -> Result<(), SolveError> {
+    ws.f.copy_from_slice(f);
+    ws.jac.copy_entries_from(jac);
+    shifted_step(heat_capacity, t, dt, ws)
+}
+
+/// δ from (C/Δt - J) δ = F with F and J in `ws`, then T += δ.
+fn shifted_step(
+    heat_capacity: &[f64],
+    t: &mut [f64],
+    dt: f64,
+    ws: &mut Workspace,
+) -> Result<(), SolveError> {
+    for (i, c) in heat_capacity.iter().enumerate() {
         ws.jac.diag[i] -= c / dt;
     }
     ws.jac
