@@ -79,7 +79,9 @@ sed 's/^/    /' <<<"$submit"
 t0=$(date +%s)
 (cd "$scratch" && bash -euo pipefail -c "$submit") || fail "the README's submission commands failed"
 
-# every job of the scratch directory (array tasks and the merge), until done
+# every job of the scratch directory (array tasks and the merge), until done;
+# a job succeeded when Slurm reports COMPLETED with exit code 0:0 (the
+# scheduler's own record of the job, as scontrol reports it; from memory)
 jobs_here() { scontrol -o show job 2>/dev/null | grep -F " WorkDir=$scratch " || true; }
 terminal='^(COMPLETED|FAILED|CANCELLED|TIMEOUT|NODE_FAIL|OUT_OF_MEMORY|PREEMPTED|BOOT_FAIL|DEADLINE)$'
 while :; do
@@ -126,7 +128,9 @@ t_single=$(($(date +%s) - t0))
 command=$(sed -e ':a' -e '/\\$/N; s/\\\n *//; ta' <<<"$single" | grep '^icefold ')
 echo "single process: $command (SLURM_CPUS_PER_TASK=$(nproc)) in $t_single s"
 
-# byte for byte, every file (README: shards merged equal a single run)
+# byte for byte, every file (our requirement, README: shards merged equal a
+# single run; the single run is the independent path, with neither shards nor
+# Slurm; common practice, no source)
 files=$(cd "$scratch/single" && find . -type f | sort)
 [ -n "$files" ] || fail "the single run wrote no files"
 diff -r "$scratch/map" "$scratch/single" >/dev/null ||
