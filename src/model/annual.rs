@@ -235,18 +235,31 @@ impl Model {
         let mut unit = self.planet.orbit;
         unit.flux = 1.0;
         let ins = Insolation::new(unit, self.planet.insolation);
+        for k in 0..self.half.len() {
+            let (a, b) = self.segment(k);
+            let (xa, xb) = (self.grid.centres[a], self.grid.centres[b]);
+            let h = &mut self.half[k];
+            (h.a, h.b) = (a, b);
+            let i = k / 2;
+            (h.lo, h.hi) = if k % 2 == 0 {
+                (self.grid.faces[i], self.grid.centres[i])
+            } else {
+                (self.grid.centres[i], self.grid.faces[i + 1])
+            };
+            h.between = h.lo >= xa.min(xb) && h.hi <= xa.max(xb);
+        }
         let g = &self.grid;
+        let mut shared_end = None;
         for i in 0..g.len() {
             let halves = [(g.faces[i], g.centres[i]), (g.centres[i], g.faces[i + 1])];
             for (k, (lo, hi)) in halves.into_iter().enumerate() {
                 let h = &mut self.half[2 * i + k];
-                h.lo = lo;
-                h.hi = hi;
-                h.s = [
-                    ins.annual_mean(lo),
-                    ins.annual_mean(0.5 * (lo + hi)),
-                    ins.annual_mean(hi),
-                ];
+                // a half-band starts where the previous one ends: its
+                // value there is the one already computed
+                let s_lo = shared_end.unwrap_or_else(|| ins.annual_mean(lo));
+                let s_hi = ins.annual_mean(hi);
+                h.s = [s_lo, ins.annual_mean(0.5 * (lo + hi)), s_hi];
+                shared_end = Some(s_hi);
             }
         }
         self.rebuild_albedo();

@@ -33,6 +33,12 @@ pub(crate) struct HalfBand {
     pub(super) ice: f64,
     /// ∫ S/S0 dx.
     pub(super) insolation: f64,
+    /// The band pair of [`Model::segment`] for this half-band.
+    pub(super) a: usize,
+    pub(super) b: usize,
+    /// Whether the half-band lies between the two centres (interpolated,
+    /// not extrapolated).
+    pub(super) between: bool,
 }
 
 /// Where the ice is inside one half-band.
@@ -139,14 +145,13 @@ impl Model {
     /// Ice cover of half-band k under the piecewise-linear profile of `t`.
     #[inline]
     fn half_ice(&self, k: usize, t: &[f64]) -> HalfIce {
-        let (a, b) = self.segment(k);
-        let (xa, xb) = (self.grid.centres[a], self.grid.centres[b]);
+        let h = &self.half[k];
+        let (a, b) = (h.a, h.b);
         let (ta, tb) = (t[a], t[b]);
         let ts = self.planet.albedo.threshold;
-        let h = &self.half[k];
         // a half-band between its two centres, with both clear of T_s:
         // the answer of the interpolation below, without its divisions
-        if h.lo >= xa.min(xb) && h.hi <= xa.max(xb) {
+        if h.between {
             if ta.min(tb) > ts + 1e-9 {
                 return HalfIce::Open;
             }
@@ -154,6 +159,7 @@ impl Model {
                 return HalfIce::Ice;
             }
         }
+        let (xa, xb) = (self.grid.centres[a], self.grid.centres[b]);
         let slope = (tb - ta) / (xb - xa);
         let t_lo = ta + slope * (h.lo - xa);
         let t_hi = ta + slope * (h.hi - xa);
