@@ -113,7 +113,11 @@ fn run(
     let cancel = Arc::new(AtomicBool::new(false));
     let args = Args {
         quiet,
-        no_figures: !figures,
+        figures: if figures {
+            icefold::io::plot::Formats::All
+        } else {
+            icefold::io::plot::Formats::None
+        },
         capture: Some(capture.clone()),
         cancel: Some(cancel.clone()),
         ..command_args(command, scenario, sets, options)?
@@ -279,7 +283,7 @@ fn library_seconds(
 ) -> PyResult<f64> {
     let args = Args {
         quiet: true,
-        no_figures: true,
+        figures: icefold::io::plot::Formats::None,
         ..command_args(command, scenario, sets, options)?
     };
     let repeats = repeats.max(1);

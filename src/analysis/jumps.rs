@@ -268,8 +268,15 @@ impl Integrator {
             let cap = &model.planet.heat_capacity;
             let ok = implicit_step_from(&self.f, &self.jac, cap, &mut self.full, dt, &mut self.ws)
                 .is_ok()
-                && implicit_step_from(&self.f, &self.jac, cap, &mut self.half, 0.5 * dt, &mut self.ws)
-                    .is_ok()
+                && implicit_step_from(
+                    &self.f,
+                    &self.jac,
+                    cap,
+                    &mut self.half,
+                    0.5 * dt,
+                    &mut self.ws,
+                )
+                .is_ok()
                 && implicit_step(model, &mut self.half, 0.5 * dt, &mut self.ws).is_ok();
             let err = if ok {
                 max_diff(&self.full, &self.half)

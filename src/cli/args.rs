@@ -4,6 +4,7 @@
 //! stage lives with each command, where the scenario is known).
 
 use super::context::Args;
+use crate::io::plot::Formats;
 use crate::model::Param;
 use clap::builder::PossibleValuesParser;
 use clap::{ArgAction, Parser, Subcommand};
@@ -81,6 +82,19 @@ pub struct OutputOpts {
     /// No progress on stderr.
     #[arg(long, short)]
     pub quiet: bool,
+    /// Which figure files to write: none, svg, png or all (default all).
+    #[arg(long, value_name = "WHICH", value_parser = figures_arg)]
+    pub figures: Option<Formats>,
+}
+
+/// `--figures`: one of [`Formats::NAMES`].
+fn figures_arg(v: &str) -> Result<Formats, String> {
+    Formats::from_name(v).ok_or_else(|| {
+        format!(
+            "`{v}` is not a figure choice (allowed: {})",
+            Formats::NAMES.join(", ")
+        )
+    })
 }
 
 /// `--out`: a directory name (not empty, not `.`, `..` or `/`).
@@ -274,6 +288,7 @@ fn base(command: &str, s: ScenarioOpts, o: OutputOpts, line: String) -> Args {
         sets: s.sets,
         out: o.out,
         quiet: o.quiet,
+        figures: o.figures.unwrap_or_default(),
         line,
         ..Args::default()
     }

@@ -75,8 +75,9 @@ pub struct Args {
     pub fold_curves: bool,
     /// `--hierarchy` (trace).
     pub hierarchy: bool,
-    /// Skip the figures (the library front: tables and summaries only).
-    pub no_figures: bool,
+    /// `--figures`: which figure files to render (none: tables and
+    /// summaries only, as the library front asks).
+    pub figures: crate::io::plot::Formats,
     /// Keep the outputs in memory instead of publishing them into `--out`
     /// (the Python front): [`publish`] fills it with (file name, bytes).
     pub capture: Option<Capture>,

@@ -211,10 +211,11 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
             branches: super::trace::branch_curves(h),
         });
     }
-    let fig = if args.no_figures {
+    let fig = if !args.figures.any() {
         None
     } else {
         Some(plot::hierarchy_figure(
+            args.figures,
             &format!("Branches of climates in the model hierarchy: {}", sc.name()),
             key,
             &curves,
@@ -231,8 +232,7 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     summary.insert("ocean_heat_flux_as_forcing_wm2".into(), fb.into());
     out.add_json(dir.join("summary.json"), &summary);
     if let Some(fig) = fig {
-        out.add(dir.join("hierarchy.svg"), fig.svg);
-        out.add(dir.join("hierarchy.png"), fig.png);
+        fig.add_to(&mut out, &dir, "hierarchy");
     }
     out.add_text(dir.join("scenario.toml"), &base);
     let written = super::context::publish(out, &dir, args)?;

@@ -292,7 +292,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         &slices,
         &dir,
         &mut out,
-        !args.no_figures,
+        args.figures,
     )?;
     let written = super::context::publish(out, &dir, args)?;
     Ok(map_report(&mm, &spec, tol, &slices) + &written_list(&written))
@@ -390,7 +390,7 @@ pub(super) fn render(
     slices: &[Slice],
     dir: &Path,
     out: &mut OutputSet,
-    figures: bool,
+    figures: plot::Formats,
 ) -> Result<(), CliError> {
     let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
     // a slice with no branch traced failed: it is not "no stable climate"
@@ -542,10 +542,8 @@ pub(super) fn render(
             slices.len()
         )
     };
-    if figures {
-        let fig = plot::regime_figure(&title, &map)?;
-        out.add(dir.join("map.svg"), fig.svg);
-        out.add(dir.join("map.png"), fig.png);
+    if figures.any() {
+        plot::regime_figure(figures, &title, &map)?.add_to(out, dir, "map");
     }
     // summary
     let notes: Vec<serde_json::Value> = slices

@@ -656,8 +656,9 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             }
         }
         let d = cycle_diagnostics(&annual_model, c);
-        if !args.no_figures {
+        if args.figures.any() {
             let fig = plot::field_figure(
+                args.figures,
                 &format!(
                     "Periodic climate {} ({}): {}",
                     e + 1,
@@ -673,8 +674,7 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
                 &edge_lines(c),
                 "ice edge",
             )?;
-            out.add(dir.join(format!("seasonal_cycle_{}.svg", e + 1)), fig.svg);
-            out.add(dir.join(format!("seasonal_cycle_{}.png", e + 1)), fig.png);
+            fig.add_to(&mut out, &dir, &format!("seasonal_cycle_{}", e + 1));
         }
         let fl = annual_model.band_fluxes(&c.annual_mean);
         let albedo: Vec<f64> = fl
@@ -718,16 +718,16 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
     out.add_netcdf(dir.join("seasonal_cycle.nc"), nc)?;
     out.add_table(dir.join("annual_mean.csv"), &annual)?;
     out.add_table(dir.join("ice_edges.csv"), &edges)?;
-    if !args.no_figures {
+    if args.figures.any() {
         let fig = plot::profile_figure(
+            args.figures,
             &format!(
                 "Annual-mean profiles of the periodic climates: {}",
                 sc.name()
             ),
             &curves,
         )?;
-        out.add(dir.join("profiles.svg"), fig.svg);
-        out.add(dir.join("profiles.png"), fig.png);
+        fig.add_to(&mut out, &dir, "profiles");
     }
     out.add_json(dir.join("summary.json"), &summary);
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());

@@ -419,7 +419,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         &slices,
         &dir,
         &mut out,
-        !args.no_figures,
+        args.figures,
     )?;
     let written = super::context::publish(out, &dir, args)?;
     let tol = super::map::scenario_num(&meta.scenario, "solver.tolerance", 1e-10);

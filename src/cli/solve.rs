@@ -129,10 +129,9 @@ pub fn cmd_solve(args: &Args) -> Result<String, CliError> {
     );
     out.add_table(dir.join("profile.csv"), &table)?;
     out.add_json(dir.join("summary.json"), &summary);
-    if !args.no_figures {
-        let fig = plot::profile_figure(&format!("Equilibrium climates: {}", sc.name()), &curves)?;
-        out.add(dir.join("profiles.svg"), fig.svg);
-        out.add(dir.join("profiles.png"), fig.png);
+    if args.figures.any() {
+        let title = format!("Equilibrium climates: {}", sc.name());
+        plot::profile_figure(args.figures, &title, &curves)?.add_to(&mut out, &dir, "profiles");
     }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = super::context::publish(out, &dir, args)?;

@@ -27,10 +27,11 @@ pub fn cmd_sun(args: &Args) -> Result<String, CliError> {
     for (lat, x) in model.grid.latitudes_deg().iter().zip(&model.grid.centres) {
         annual.push_row(vec![Cell::Num(*lat), Cell::Num(ins.annual_mean(*x))]);
     }
-    let fig = if args.no_figures {
+    let fig = if !args.figures.any() {
         None
     } else {
         Some(plot::field_figure(
+            args.figures,
             &format!("Daily-mean insolation: {}", sc.name()),
             plot::labels::DAY_OF_YEAR,
             plot::labels::LATITUDE,
@@ -46,8 +47,7 @@ pub fn cmd_sun(args: &Args) -> Result<String, CliError> {
     out.add_table(dir.join("insolation.csv"), &table)?;
     out.add_table(dir.join("annual_insolation.csv"), &annual)?;
     if let Some(fig) = fig {
-        out.add(dir.join("insolation.svg"), fig.svg);
-        out.add(dir.join("insolation.png"), fig.png);
+        fig.add_to(&mut out, &dir, "insolation");
     }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = super::context::publish(out, &dir, args)?;

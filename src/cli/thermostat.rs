@@ -340,10 +340,11 @@ pub fn cmd_thermostat(args: &Args) -> Result<String, CliError> {
             .map(|q| (q.co2_ppm, q.global_mean_c, q.weathering))
             .collect();
     }
-    let figure = if args.no_figures {
+    let figure = if !args.figures.any() {
         None
     } else {
         Some(plot::thermostat_figure(
+            args.figures,
             &format!("Carbonate-silicate thermostat: {}", sc.name()),
             &fig,
         )?)
@@ -367,8 +368,7 @@ pub fn cmd_thermostat(args: &Args) -> Result<String, CliError> {
     out.add_table(dir.join("cycle.csv"), &cycle_table)?;
     out.add_json(dir.join("summary.json"), &summary);
     if let Some(figure) = figure {
-        out.add(dir.join("thermostat.svg"), figure.svg);
-        out.add(dir.join("thermostat.png"), figure.png);
+        figure.add_to(&mut out, &dir, "thermostat");
     }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = super::context::publish(out, &dir, args)?;

@@ -375,10 +375,8 @@ pub fn cmd_trace(args: &Args) -> Result<String, CliError> {
             open.join(", ")
         )
     };
-    if !args.no_figures {
-        let fig = hysteresis_figure(&h, &title)?;
-        out.add(dir.join("hysteresis.svg"), fig.svg);
-        out.add(dir.join("hysteresis.png"), fig.png);
+    if args.figures.any() {
+        hysteresis_figure(args.figures, &h, &title)?.add_to(&mut out, &dir, "hysteresis");
     }
     out.add_text(dir.join("scenario.toml"), &sc.to_toml());
     let written = super::context::publish(out, &dir, args)?;
@@ -687,6 +685,7 @@ pub(super) fn branch_curves(h: &Hysteresis) -> Vec<BranchCurve> {
 }
 
 fn hysteresis_figure(
+    formats: plot::Formats,
     h: &Hysteresis,
     name: &str,
 ) -> Result<plot::Figure, crate::io::export::ExportError> {
@@ -707,6 +706,7 @@ fn hysteresis_figure(
         })
         .collect();
     plot::hysteresis_figure(
+        formats,
         &format!("Branches of equilibria: {name}"),
         h.param.key(),
         &branches,

@@ -4,13 +4,13 @@
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::Figure;
 use super::axis::Axis;
 use super::chart::{Stroke, Ticked, build_chart, draw_frame, draw_halo_line, tick_label};
 use super::check::{cell_edges, check_finite, check_len, check_polyline, edge_range, min_max};
 use super::colour::seq;
 use super::legend::{Sample, draw_legend, item};
 use super::render::{PRes, Paint, Pe, font, render, titled};
+use super::{Figure, Formats};
 use crate::io::export::ExportError;
 
 /// Width of the colour-bar column, pixels.
@@ -41,6 +41,7 @@ struct FieldPaint<'a> {
 /// any non-finite value (named).
 #[allow(clippy::too_many_arguments)]
 pub fn field_figure(
+    formats: Formats,
     title: &str,
     x_label: &str,
     y_label: &str,
@@ -60,17 +61,20 @@ pub fn field_figure(
     }
     let (vmin, vmax) = min_max(values.iter().copied()).unwrap_or((0.0, 1.0));
     let ((x0, x1), (y0, y1)) = (edge_range(&xe), edge_range(&ye));
-    render(&FieldPaint {
-        title,
-        x: Axis::linear(x0, x1, x_label),
-        y: Axis::linear(y0, y1, y_label),
-        colour: Axis::linear(vmin, vmax, colour_label),
-        overlay_label,
-        xe,
-        ye,
-        values,
-        overlay,
-    })
+    render(
+        formats,
+        &FieldPaint {
+            title,
+            x: Axis::linear(x0, x1, x_label),
+            y: Axis::linear(y0, y1, y_label),
+            colour: Axis::linear(vmin, vmax, colour_label),
+            overlay_label,
+            xe,
+            ye,
+            values,
+            overlay,
+        },
+    )
 }
 
 impl FieldPaint<'_> {
@@ -186,6 +190,7 @@ mod tests {
             .map(|&d| (60.0 + 10.0 * (d / 58.0).sin(), d))
             .collect();
         let f = field_figure(
+            Formats::All,
             "Daily-mean insolation",
             super::super::labels::LATITUDE,
             super::super::labels::DAY_OF_YEAR,
@@ -201,16 +206,17 @@ mod tests {
         let mut bad = v.clone();
         bad[10] = f64::INFINITY;
         assert!(matches!(
-            field_figure("t", "x", "y", "c", &xs, &ys, &bad, &[], ""),
+            field_figure(Formats::All, "t", "x", "y", "c", &xs, &ys, &bad, &[], ""),
             Err(ExportError::NonFinite { .. })
         ));
         assert!(matches!(
-            field_figure("t", "x", "y", "c", &xs, &ys, &v[1..], &[], ""),
+            field_figure(Formats::All, "t", "x", "y", "c", &xs, &ys, &v[1..], &[], ""),
             Err(ExportError::Shape { .. })
         ));
-        assert!(field_figure("t", "x", "y", "c", &[], &[], &[], &[], "").is_err());
+        assert!(field_figure(Formats::All, "t", "x", "y", "c", &[], &[], &[], &[], "").is_err());
         assert!(
             field_figure(
+                Formats::All,
                 "t",
                 "x",
                 "y",
@@ -225,12 +231,24 @@ mod tests {
         );
         let bad_line = vec![(0.0, f64::NAN)];
         assert!(matches!(
-            field_figure("t", "x", "y", "c", &xs, &ys, &v, &[bad_line], ""),
+            field_figure(
+                Formats::All,
+                "t",
+                "x",
+                "y",
+                "c",
+                &xs,
+                &ys,
+                &v,
+                &[bad_line],
+                ""
+            ),
             Err(ExportError::NonFinite { .. })
         ));
         // constant field is fine
         check_fig(
             &field_figure(
+                Formats::All,
                 "t",
                 "x",
                 "y",

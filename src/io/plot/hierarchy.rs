@@ -12,7 +12,7 @@ use super::labels::{GLOBAL_MEAN, ICE_EDGE};
 use super::legend::{Sample, draw_legend, item};
 use super::render::{PRes, Paint, render, titled};
 use super::style::{Mark, SHAPES};
-use super::{BranchCurve, Figure};
+use super::{BranchCurve, Figure, Formats};
 use crate::io::export::ExportError;
 
 /// The branches of one model of the hierarchy.
@@ -49,6 +49,7 @@ struct HierPaint<'a> {
 /// Errors: no models, a model without branches, a branch with no points
 /// or unequal lengths, ice edges outside ±90 deg, or non-finite values.
 pub fn hierarchy_figure(
+    formats: Formats,
     title: &str,
     param_key: &str,
     models: &[ModelCurves],
@@ -81,13 +82,16 @@ pub fn hierarchy_figure(
     let (p_lo, p_hi) = min_max(all().flat_map(|b| b.param.iter().copied())).unwrap_or((0.0, 1.0));
     let (g_lo, g_hi) =
         min_max(all().flat_map(|b| b.global_mean_c.iter().copied())).unwrap_or((0.0, 1.0));
-    render(&HierPaint {
-        title,
-        models,
-        p: Axis::param(param_key, p_lo, p_hi, 0.03),
-        ice: Axis::padded(0.0, 90.0, 0.03, ICE_EDGE),
-        gm: Axis::padded(g_lo, g_hi, 0.06, GLOBAL_MEAN),
-    })
+    render(
+        formats,
+        &HierPaint {
+            title,
+            models,
+            p: Axis::param(param_key, p_lo, p_hi, 0.03),
+            ice: Axis::padded(0.0, 90.0, 0.03, ICE_EDGE),
+            gm: Axis::padded(g_lo, g_hi, 0.06, GLOBAL_MEAN),
+        },
+    )
 }
 
 /// Runs of one stability along a branch: (stable, point indices), the
@@ -208,7 +212,8 @@ mod tests {
                 branches: vec![curve(2.0)],
             },
         ];
-        let fig = hierarchy_figure("Hierarchy", "radiation.forcing", &models).unwrap();
+        let fig =
+            hierarchy_figure(Formats::All, "Hierarchy", "radiation.forcing", &models).unwrap();
         check_fig(&fig);
         let texts = svg_texts(&fig.svg);
         for name in [
@@ -219,13 +224,13 @@ mod tests {
             assert_eq!(texts.iter().filter(|t| *t == name).count(), 1, "{name}");
         }
         assert!(matches!(
-            hierarchy_figure("x", "radiation.forcing", &[]),
+            hierarchy_figure(Formats::All, "x", "radiation.forcing", &[]),
             Err(ExportError::Empty { .. })
         ));
         let mut bad = models.clone();
         bad[1].branches[0].global_mean_c[2] = f64::NAN;
         assert!(matches!(
-            hierarchy_figure("x", "radiation.forcing", &bad),
+            hierarchy_figure(Formats::All, "x", "radiation.forcing", &bad),
             Err(ExportError::NonFinite { .. })
         ));
     }

@@ -11,7 +11,7 @@ use super::labels::{GLOBAL_MEAN, ICE_EDGE};
 use super::legend::{LegendItem, Sample, draw_legend, item, merged};
 use super::render::{PRes, Paint, render, titled};
 use super::style::{Glyph, Mark, draw_arrow, draw_glyph, state_stability, state_style};
-use super::{BranchCurve, Figure, FoldMark};
+use super::{BranchCurve, Figure, FoldMark, Formats};
 use crate::io::export::ExportError;
 
 /// Pixels between markers along a branch.
@@ -52,6 +52,7 @@ pub(super) struct Run {
 /// Errors: no branches, a branch with no points or unequal vector lengths,
 /// ice-edge latitudes outside ±90 deg, or any non-finite value.
 pub fn hysteresis_figure(
+    formats: Formats,
     title: &str,
     param_key: &str,
     branches: &[BranchCurve],
@@ -102,15 +103,18 @@ pub fn hysteresis_figure(
         .enumerate()
         .flat_map(|(k, b)| state_runs(k, &b.state, &b.stable))
         .collect();
-    render(&HystPaint {
-        title,
-        branches,
-        runs,
-        folds,
-        p: Axis::param(param_key, p_lo, p_hi, 0.03),
-        ice: Axis::padded(0.0, 90.0, 0.03, ICE_EDGE),
-        gm: Axis::padded(g_lo, g_hi, 0.06, GLOBAL_MEAN),
-    })
+    render(
+        formats,
+        &HystPaint {
+            title,
+            branches,
+            runs,
+            folds,
+            p: Axis::param(param_key, p_lo, p_hi, 0.03),
+            ice: Axis::padded(0.0, 90.0, 0.03, ICE_EDGE),
+            gm: Axis::padded(g_lo, g_hi, 0.06, GLOBAL_MEAN),
+        },
+    )
 }
 
 /// Split a branch into runs of one state and stability. The segment from
@@ -309,7 +313,7 @@ mod tests {
     #[test]
     fn hysteresis_ok_and_errors() {
         let (b, f) = branches();
-        let fig = hysteresis_figure("Hysteresis", "orbit.flux", &b, &f).unwrap();
+        let fig = hysteresis_figure(Formats::All, "Hysteresis", "orbit.flux", &b, &f).unwrap();
         check_fig(&fig);
         let texts = svg_texts(&fig.svg);
         // axis label from the schema, curves named by state and stability,
@@ -327,33 +331,36 @@ mod tests {
         ] {
             assert_eq!(texts.iter().filter(|t| *t == name).count(), 1, "{name}");
         }
-        check_fig(&hysteresis_figure("No folds", "radiation.co2_ppm", &b[..1], &[]).unwrap());
+        check_fig(
+            &hysteresis_figure(Formats::All, "No folds", "radiation.co2_ppm", &b[..1], &[])
+                .unwrap(),
+        );
         assert!(matches!(
-            hysteresis_figure("x", "orbit.flux", &[], &[]),
+            hysteresis_figure(Formats::All, "x", "orbit.flux", &[], &[]),
             Err(ExportError::Empty { .. })
         ));
         let mut bad = b.clone();
         bad[0].global_mean_c[5] = f64::NAN;
         assert!(matches!(
-            hysteresis_figure("x", "orbit.flux", &bad, &f),
+            hysteresis_figure(Formats::All, "x", "orbit.flux", &bad, &f),
             Err(ExportError::NonFinite { .. })
         ));
         let mut bad = b.clone();
         bad[1].stable.pop();
         assert!(matches!(
-            hysteresis_figure("x", "orbit.flux", &bad, &f),
+            hysteresis_figure(Formats::All, "x", "orbit.flux", &bad, &f),
             Err(ExportError::Shape { .. })
         ));
         let mut bad = b.clone();
         bad[1].state.pop();
         assert!(matches!(
-            hysteresis_figure("x", "orbit.flux", &bad, &f),
+            hysteresis_figure(Formats::All, "x", "orbit.flux", &bad, &f),
             Err(ExportError::Shape { .. })
         ));
         let mut badf = f.clone();
         badf[0].jump_to_global_mean_c = Some(f64::NEG_INFINITY);
         assert!(matches!(
-            hysteresis_figure("x", "orbit.flux", &b, &badf),
+            hysteresis_figure(Formats::All, "x", "orbit.flux", &b, &badf),
             Err(ExportError::NonFinite { .. })
         ));
     }
@@ -369,7 +376,7 @@ mod tests {
                 .collect();
         }
         let texts = svg_texts(
-            &hysteresis_figure("CO2", "radiation.co2_ppm", &b, &[])
+            &hysteresis_figure(Formats::All, "CO2", "radiation.co2_ppm", &b, &[])
                 .unwrap()
                 .svg,
         );

@@ -77,13 +77,72 @@ pub mod labels {
     pub const ALBEDO: &str = "Albedo";
 }
 
-/// A rendered figure: the same drawing as SVG text and as PNG image bytes.
+/// A rendered figure: the same drawing as SVG text and as PNG image bytes,
+/// each empty when its format was not asked for ([`Formats`]).
 #[derive(Debug, Clone)]
 pub struct Figure {
     /// UTF-8 SVG document.
     pub svg: Vec<u8>,
     /// PNG file bytes (8-bit RGB).
     pub png: Vec<u8>,
+}
+
+impl Figure {
+    /// Stages `STEM.svg` and/or `STEM.png` in `dir` (what was rendered).
+    pub fn add_to(self, out: &mut crate::io::export::OutputSet, dir: &std::path::Path, stem: &str) {
+        if !self.svg.is_empty() {
+            out.add(dir.join(format!("{stem}.svg")), self.svg);
+        }
+        if !self.png.is_empty() {
+            out.add(dir.join(format!("{stem}.png")), self.png);
+        }
+    }
+}
+
+/// Which figure files a command renders (`--figures`): the same drawing as
+/// SVG, as PNG, both, or none (tables and summaries only).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Formats {
+    /// No figures.
+    None,
+    /// SVG only.
+    Svg,
+    /// PNG only.
+    Png,
+    /// SVG and PNG (the default).
+    #[default]
+    All,
+}
+
+impl Formats {
+    /// The names `--figures` accepts, in order.
+    pub const NAMES: [&'static str; 4] = ["none", "svg", "png", "all"];
+
+    /// From a `--figures` name.
+    pub fn from_name(name: &str) -> Option<Formats> {
+        match name {
+            "none" => Some(Formats::None),
+            "svg" => Some(Formats::Svg),
+            "png" => Some(Formats::Png),
+            "all" => Some(Formats::All),
+            _ => None,
+        }
+    }
+
+    /// Whether any figure is rendered.
+    pub fn any(self) -> bool {
+        self != Formats::None
+    }
+
+    /// Whether SVG is rendered.
+    pub fn svg(self) -> bool {
+        matches!(self, Formats::Svg | Formats::All)
+    }
+
+    /// Whether PNG is rendered.
+    pub fn png(self) -> bool {
+        matches!(self, Formats::Png | Formats::All)
+    }
 }
 
 /// One latitude profile of an equilibrium state, for [`profile_figure`].

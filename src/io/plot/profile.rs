@@ -10,7 +10,7 @@ use super::labels::{ALBEDO, LATITUDE, TEMPERATURE};
 use super::legend::{LegendItem, Sample, draw_legend, item};
 use super::render::{PRes, Paint, render, titled};
 use super::style::{Glyph, Mark, SHAPES, Shape, draw_glyph, state_stability, state_style};
-use super::{Figure, ProfileCurve};
+use super::{Figure, Formats, ProfileCurve};
 use crate::io::export::ExportError;
 
 /// Pixels between markers along a profile.
@@ -65,7 +65,11 @@ fn curve_shapes(curves: &[ProfileCurve]) -> Vec<Shape> {
 ///
 /// Errors: no curves, a curve with no points or unequal vector lengths,
 /// latitudes outside ±90 deg, or any non-finite value.
-pub fn profile_figure(title: &str, curves: &[ProfileCurve]) -> Result<Figure, ExportError> {
+pub fn profile_figure(
+    formats: Formats,
+    title: &str,
+    curves: &[ProfileCurve],
+) -> Result<Figure, ExportError> {
     check_nonempty("profile curve list", curves)?;
     let shapes = curve_shapes(curves);
     let mut sorted = Vec::with_capacity(curves.len());
@@ -109,13 +113,16 @@ pub fn profile_figure(title: &str, curves: &[ProfileCurve]) -> Result<Figure, Ex
         min_max(curves.iter().flat_map(|c| c.temperature_c.iter().copied())).unwrap_or((0.0, 1.0));
     let (a_lo, a_hi) =
         min_max(curves.iter().flat_map(|c| c.albedo.iter().copied())).unwrap_or((0.0, 1.0));
-    render(&ProfilePaint {
-        title,
-        curves: sorted,
-        lat,
-        temp: Axis::padded(t_lo, t_hi, 0.06, TEMPERATURE),
-        alb: Axis::padded(a_lo.min(0.0), a_hi.max(1.0), 0.03, ALBEDO),
-    })
+    render(
+        formats,
+        &ProfilePaint {
+            title,
+            curves: sorted,
+            lat,
+            temp: Axis::padded(t_lo, t_hi, 0.06, TEMPERATURE),
+            alb: Axis::padded(a_lo.min(0.0), a_hi.max(1.0), 0.03, ALBEDO),
+        },
+    )
 }
 
 impl ProfilePaint<'_> {
@@ -209,6 +216,7 @@ mod tests {
     #[test]
     fn profile_ok_and_errors() {
         let f = profile_figure(
+            Formats::All,
             "Equilibria at S0 = 1361 W m-2",
             &[
                 curve("1", "polar-caps", true, 0.0),
@@ -226,19 +234,19 @@ mod tests {
             assert!(texts.iter().any(|x| x == t), "{t} missing");
         }
         assert!(matches!(
-            profile_figure("x", &[]),
+            profile_figure(Formats::All, "x", &[]),
             Err(ExportError::Empty { .. })
         ));
         let mut bad = curve("bad", "ice-free", true, 0.0);
         bad.temperature_c[3] = f64::NAN;
-        match profile_figure("x", &[bad]) {
+        match profile_figure(Formats::All, "x", &[bad]) {
             Err(ExportError::NonFinite { what }) => assert!(what.contains("temperature")),
             other => panic!("{other:?}"),
         }
         let mut bad = curve("bad", "ice-free", true, 0.0);
         bad.albedo.pop();
         assert!(matches!(
-            profile_figure("x", &[bad]),
+            profile_figure(Formats::All, "x", &[bad]),
             Err(ExportError::Shape { .. })
         ));
         let mut bad = curve("bad", "ice-free", true, 0.0);
@@ -246,13 +254,13 @@ mod tests {
         bad.temperature_c.clear();
         bad.albedo.clear();
         assert!(matches!(
-            profile_figure("x", &[bad]),
+            profile_figure(Formats::All, "x", &[bad]),
             Err(ExportError::Empty { .. })
         ));
         // southern hemisphere data use -90..90
         let mut both = curve("both", "ice-free", true, 0.0);
         both.latitude_deg = both.latitude_deg.iter().map(|l| l * 2.0 - 90.0).collect();
-        check_fig(&profile_figure("global", &[both]).unwrap());
+        check_fig(&profile_figure(Formats::All, "global", &[both]).unwrap());
     }
 
     #[test]

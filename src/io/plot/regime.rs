@@ -11,7 +11,7 @@ use super::legend::{LegendItem, Sample, draw_legend, item};
 use super::placement::{Labelled, PxBox, place_labels};
 use super::render::{PRes, Paint, Pe, font, render, text_size, titled};
 use super::style::{REGIMES, Regime, hatch, ink_on, regime_legend, state_name};
-use super::{BoundaryLine, BoundaryMethod, Figure, RegimeMap};
+use super::{BoundaryLine, BoundaryMethod, Figure, Formats, RegimeMap};
 use crate::analysis::sweep::STATES;
 use crate::io::export::ExportError;
 
@@ -71,7 +71,11 @@ fn grid_axis(what: &str, key: &str, v: &[f64]) -> Result<(Axis, Vec<f64>), Expor
 ///
 /// Errors: too few or non-monotone grid points, a wrong number of cells, a
 /// mask with bits of no state, or any non-finite coordinate.
-pub fn regime_figure(title: &str, map: &RegimeMap) -> Result<Figure, ExportError> {
+pub fn regime_figure(
+    formats: Formats,
+    title: &str,
+    map: &RegimeMap,
+) -> Result<Figure, ExportError> {
     let (x, xe) = grid_axis("regime map across values", &map.across_key, &map.across)?;
     let (y, ye) = grid_axis("regime map traced values", &map.vary_key, &map.vary)?;
     check_len(
@@ -93,15 +97,18 @@ pub fn regime_figure(title: &str, map: &RegimeMap) -> Result<Figure, ExportError
     let mut masks = map.regime.clone();
     masks.sort_unstable();
     masks.dedup();
-    render(&RegimePaint {
-        title,
-        map,
-        x,
-        y,
-        xe,
-        ye,
-        masks,
-    })
+    render(
+        formats,
+        &RegimePaint {
+            title,
+            map,
+            x,
+            y,
+            xe,
+            ye,
+            masks,
+        },
+    )
 }
 
 /// "polar-caps -> snowball" as "polar caps → snowball".
@@ -388,7 +395,7 @@ mod tests {
             },
             BoundaryLine::default(),
         ];
-        let f = regime_figure("Regimes", &m).unwrap();
+        let f = regime_figure(Formats::All, "Regimes", &m).unwrap();
         check_fig(&f);
         let texts = svg_texts(&f.svg);
         for text in [
@@ -406,22 +413,22 @@ mod tests {
         let mut bad = m.clone();
         bad.regime[0] = 64;
         assert!(matches!(
-            regime_figure("r", &bad),
+            regime_figure(Formats::All, "r", &bad),
             Err(ExportError::Shape { .. })
         ));
         let mut bad = m.clone();
         bad.regime.pop();
         assert!(matches!(
-            regime_figure("r", &bad),
+            regime_figure(Formats::All, "r", &bad),
             Err(ExportError::Shape { .. })
         ));
         let mut bad = m.clone();
         bad.across = vec![1.0];
-        assert!(regime_figure("r", &bad).is_err());
+        assert!(regime_figure(Formats::All, "r", &bad).is_err());
         let mut bad = m.clone();
         bad.boundaries[0].points[0].1 = f64::NAN;
         assert!(matches!(
-            regime_figure("r", &bad),
+            regime_figure(Formats::All, "r", &bad),
             Err(ExportError::NonFinite { .. })
         ));
     }
@@ -450,7 +457,11 @@ mod tests {
             (1 | 2 | 8, BLACK),
             (2, DARK_BLUE),
         ] {
-            let rgb = decode_png(&regime_figure("Map", &map(2 | 8, right, None)).unwrap().png);
+            let rgb = decode_png(
+                &regime_figure(Formats::All, "Map", &map(2 | 8, right, None))
+                    .unwrap()
+                    .png,
+            );
             assert_eq!(
                 dominant(&rgb, 120..300, 100..600),
                 LIGHT_BLUE,
@@ -471,7 +482,7 @@ mod tests {
         // across the map (rows of mostly dark pixels; diagonal hatch lines
         // never make one); without it there is none.
         let dark_rows = |m: &RegimeMap| {
-            let rgb = decode_png(&regime_figure("Map", m).unwrap().png);
+            let rgb = decode_png(&regime_figure(Formats::All, "Map", m).unwrap().png);
             (100..600)
                 .filter(|&y| {
                     (150..170)
@@ -494,7 +505,7 @@ mod tests {
         m.vary = (0..300)
             .map(|j| 100.0 * 20f64.powf(j as f64 / 299.0))
             .collect();
-        let texts = svg_texts(&regime_figure("CO2", &m).unwrap().svg);
+        let texts = svg_texts(&regime_figure(Formats::All, "CO2", &m).unwrap().svg);
         for t in ["CO2 (ppm)", "100", "200", "500", "1000", "2000"] {
             assert!(texts.iter().any(|x| x == t), "{t} missing");
         }

@@ -7,7 +7,7 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::{FontStyle, register_font};
 
-use super::{FIGURE_HEIGHT, FIGURE_WIDTH, Figure};
+use super::{FIGURE_HEIGHT, FIGURE_WIDTH, Figure, Formats};
 use crate::io::export::ExportError;
 
 /// Font family name under which the embedded DejaVu Sans is registered.
@@ -47,9 +47,40 @@ pub(super) trait Paint {
     fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> PRes;
 }
 
-/// Draw a figure to SVG and to PNG.
-pub(super) fn render<P: Paint>(p: &P) -> Result<Figure, ExportError> {
+/// Draw a figure to SVG and/or PNG, as `formats` asks (a format not asked
+/// for is left empty). With both, the two drawings run side by side
+/// (rayon::join): the same bytes as one after the other.
+pub(super) fn render<P: Paint + Sync>(formats: Formats, p: &P) -> Result<Figure, ExportError> {
+    if !formats.any() {
+        return Ok(Figure {
+            svg: Vec::new(),
+            png: Vec::new(),
+        });
+    }
     ensure_font()?;
+    let (svg, png) = rayon::join(
+        || {
+            if formats.svg() {
+                draw_svg(p)
+            } else {
+                Ok(Vec::new())
+            }
+        },
+        || {
+            if formats.png() {
+                draw_png(p)
+            } else {
+                Ok(Vec::new())
+            }
+        },
+    );
+    Ok(Figure {
+        svg: svg?,
+        png: png?,
+    })
+}
+
+fn draw_svg<P: Paint>(p: &P) -> Result<Vec<u8>, ExportError> {
     let plot_err = |what: String| ExportError::Plot { what };
     let mut svg = String::new();
     {
@@ -59,6 +90,11 @@ pub(super) fn render<P: Paint>(p: &P) -> Result<Figure, ExportError> {
         p.paint(&root).map_err(plot_err)?;
         root.present().pe().map_err(plot_err)?;
     }
+    Ok(svg.into_bytes())
+}
+
+fn draw_png<P: Paint>(p: &P) -> Result<Vec<u8>, ExportError> {
+    let plot_err = |what: String| ExportError::Plot { what };
     let mut rgb = vec![255u8; (FIGURE_WIDTH * FIGURE_HEIGHT * 3) as usize];
     {
         let root =
@@ -67,11 +103,7 @@ pub(super) fn render<P: Paint>(p: &P) -> Result<Figure, ExportError> {
         p.paint(&root).map_err(plot_err)?;
         root.present().pe().map_err(plot_err)?;
     }
-    let png = encode_png(&rgb, FIGURE_WIDTH, FIGURE_HEIGHT)?;
-    Ok(Figure {
-        svg: svg.into_bytes(),
-        png,
-    })
+    encode_png(&rgb, FIGURE_WIDTH, FIGURE_HEIGHT)
 }
 
 /// Encode 8-bit RGB pixels as PNG.

@@ -12,7 +12,7 @@ use super::labels::GLOBAL_MEAN;
 use super::legend::{LegendItem, Sample, draw_legend, item, merged};
 use super::render::{PRes, Paint, render, titled};
 use super::style::{Glyph, Mark, Shape, draw_arrow, draw_glyph, state_stability};
-use super::{BranchCurve, Figure};
+use super::{BranchCurve, Figure, Formats};
 use crate::io::export::ExportError;
 
 /// Axis title of the weathering panel.
@@ -55,7 +55,11 @@ struct ThermoPaint<'a> {
 /// with arrows at its jumps, in both panels.
 ///
 /// Errors: no branches, unequal lengths, or a non-finite value.
-pub fn thermostat_figure(title: &str, plot: &ThermostatPlot) -> Result<Figure, ExportError> {
+pub fn thermostat_figure(
+    formats: Formats,
+    title: &str,
+    plot: &ThermostatPlot,
+) -> Result<Figure, ExportError> {
     check_nonempty("branch list", &plot.branches)?;
     check_len(
         "weathering curves",
@@ -111,14 +115,17 @@ pub fn thermostat_figure(title: &str, plot: &ThermostatPlot) -> Result<Figure, E
         .enumerate()
         .flat_map(|(k, b)| state_runs(k, &b.state, &b.stable))
         .collect();
-    render(&ThermoPaint {
-        title,
-        plot,
-        runs,
-        p: Axis::param("radiation.co2_ppm", p_lo, p_hi, 0.02),
-        gm: Axis::padded(g_lo, g_hi, 0.06, GLOBAL_MEAN),
-        w: Axis::scaled(WEATHERING.into(), w_floor, w_top, 0.0, true),
-    })
+    render(
+        formats,
+        &ThermoPaint {
+            title,
+            plot,
+            runs,
+            p: Axis::param("radiation.co2_ppm", p_lo, p_hi, 0.02),
+            gm: Axis::padded(g_lo, g_hi, 0.06, GLOBAL_MEAN),
+            w: Axis::scaled(WEATHERING.into(), w_floor, w_top, 0.0, true),
+        },
+    )
 }
 
 const MARK_SPACING: f64 = 120.0;
@@ -298,7 +305,7 @@ mod tests {
     // stability and role (common practice, no source).
     #[test]
     fn draws_and_names_everything() {
-        let fig = thermostat_figure("Thermostat", &plot()).unwrap();
+        let fig = thermostat_figure(Formats::All, "Thermostat", &plot()).unwrap();
         check_fig(&fig);
         let texts = svg_texts(&fig.svg);
         for t in [
@@ -314,13 +321,13 @@ mod tests {
         let mut bad = plot();
         bad.cycle[1].1 = f64::NAN;
         assert!(matches!(
-            thermostat_figure("x", &bad),
+            thermostat_figure(Formats::All, "x", &bad),
             Err(ExportError::NonFinite { .. })
         ));
         let mut bad = plot();
         bad.weathering[0].pop();
         assert!(matches!(
-            thermostat_figure("x", &bad),
+            thermostat_figure(Formats::All, "x", &bad),
             Err(ExportError::Shape { .. })
         ));
     }
