@@ -640,3 +640,54 @@ fn residuals_above_the_tolerance_are_flagged() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// `--figures` writes exactly the asked formats, the same bytes as the
+/// default run, and the tables do not depend on it; an unknown choice is
+/// refused with exit 2 naming the allowed ones (common practice, no source).
+#[test]
+fn figures_writes_only_the_asked_formats() {
+    let run = |which: Option<&str>, name: &str| {
+        let d = temp_dir(name);
+        let mut args = vec!["trace", "--quiet", "--out", d.to_str().unwrap()];
+        if let Some(w) = which {
+            args.extend(["--figures", w]);
+        }
+        let (code, _, stderr) = icefold(&args);
+        assert_eq!(code, 0, "{stderr}");
+        d
+    };
+    let all = run(None, "fig-all");
+    let read = |d: &std::path::Path, f: &str| std::fs::read(d.join(f)).ok();
+    for (which, svg, png) in [
+        ("none", false, false),
+        ("svg", true, false),
+        ("png", false, true),
+        ("all", true, true),
+    ] {
+        let d = run(Some(which), &format!("fig-{which}"));
+        for (file, wanted) in [("hysteresis.svg", svg), ("hysteresis.png", png)] {
+            match read(&d, file) {
+                Some(bytes) => {
+                    assert!(wanted, "--figures {which} wrote {file}");
+                    assert_eq!(Some(bytes), read(&all, file), "{file} of --figures {which}");
+                }
+                None => assert!(!wanted, "--figures {which} did not write {file}"),
+            }
+        }
+        for table in ["branches.csv", "folds.csv"] {
+            assert_eq!(
+                read(&d, table),
+                read(&all, table),
+                "{table} with --figures {which}"
+            );
+        }
+    }
+    let d = temp_dir("fig-bad");
+    let (code, _, stderr) = icefold(&["solve", "--figures", "gif", "--out", d.to_str().unwrap()]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(
+        stderr.contains("--figures") && stderr.contains("none, svg, png, all"),
+        "{stderr}"
+    );
+    assert!(!d.exists());
+}
