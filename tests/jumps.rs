@@ -170,7 +170,7 @@ fn jump(m: &Model, b: &TracedBranch, f: &Fold, opts: &JumpOptions) -> JumpOutcom
         &f.point.temperature,
         &dir,
         lost,
-        WIDTH,
+        (LO, HI),
         opts,
     )
     .unwrap()
@@ -275,7 +275,7 @@ fn nudge_towards_the_stable_side_returns_to_it() {
             &f.point.temperature,
             &towards,
             existing,
-            WIDTH,
+            (LO, HI),
             &opts,
         )
         .unwrap();
@@ -305,4 +305,51 @@ fn jumps_are_deterministic() {
     assert_eq!(a.point.temperature, c.point.temperature);
     assert_eq!(a.years.to_bits(), c.years.to_bits());
     assert_eq!(a.steps, c.steps);
+}
+
+/// A CO2 trace from 1 ppm (log scale): the large-cap fold near 3 ppm is
+/// stepped past by a factor exp(±1e-4 ln(1e5)), not by 1e-4 of the range in
+/// ppm (which would ask for a negative CO2), so its jump is integrated and
+/// lands in the snowball, the only attractor below the fold (common
+/// practice, no source); the step is the multiplicative one.
+#[test]
+fn co2_jump_near_the_low_end_of_a_log_range_is_integrated() {
+    use icefold::analysis::jumps::past_fold;
+    let m = default_model();
+    let (lo, hi) = (1.0, 1e5);
+    let h = trace_all(
+        &m,
+        Param::Co2,
+        lo,
+        hi,
+        30.0,
+        -60.0,
+        &TraceOptions {
+            sensitivities: false,
+            ..TraceOptions::default()
+        },
+        &mut |_| {},
+    );
+    let f = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .filter(|f| f.point.p < 100.0)
+        .min_by(|a, b| a.point.p.total_cmp(&b.point.p))
+        .expect("a fold below 100 ppm");
+    assert!(f.jump_note.is_none(), "{:?}", f.jump_note);
+    let to = f.jump_to.as_ref().expect("an integrated jump");
+    assert_eq!(to.diagnostics.state, State::Snowball);
+    let expected = past_fold(Param::Co2, f.point.p, -1.0, 1e-4, (lo, hi));
+    assert!(expected > 0.0 && expected < f.point.p);
+    assert!(
+        (to.p - expected).abs() < 1e-12 * expected,
+        "{} vs {expected}",
+        to.p
+    );
+    // a flux (linear) step is unchanged: p_f ± offset · width
+    assert_eq!(
+        past_fold(Param::Flux, 1300.0, 1.0, 1e-4, (1000.0, 1500.0)),
+        1300.0 + 1e-4 * 500.0
+    );
 }

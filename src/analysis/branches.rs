@@ -517,13 +517,7 @@ pub fn trace_subgrid(
         polish_tolerance: opts.tolerance,
         ..Default::default()
     };
-    crate::analysis::jumps::integrate_jumps(
-        model,
-        param,
-        &mut branches,
-        (hi - lo).abs(),
-        &jump_opts,
-    );
+    crate::analysis::jumps::integrate_jumps(model, param, &mut branches, (lo, hi), &jump_opts);
     let bistable = bistable_windows(&branches, lo, hi);
     Hysteresis {
         param,

@@ -707,7 +707,7 @@ pub fn trace_edges(
         ..Default::default()
     };
     if opts.integrate_jumps {
-        super::jumps::integrate_jumps(model, param, &mut branches, (hi - lo).abs(), &jump_opts);
+        super::jumps::integrate_jumps(model, param, &mut branches, (lo, hi), &jump_opts);
     }
     let bistable = super::branches::bistable_windows(&branches, lo, hi);
     Ok(Hysteresis {

@@ -34,7 +34,8 @@ use crate::numerics::newton::{
 #[derive(Clone, Copy, Debug)]
 pub struct JumpOptions {
     /// How far past the fold the parameter is set, as a fraction of the
-    /// traced range: p = p_f + lost_side · offset · width. 1e-4 by default:
+    /// traced range ([`past_fold`]: p = p_f + lost_side · offset · width, or
+    /// the same step in ln p on a log-scale parameter). 1e-4 by default:
     /// far beyond the fold's own error (the fold is refined to ~1e-9 of the
     /// parameter) so the parameter is surely past it, yet so close that the
     /// target differs from the state reached exactly at the fold by only
@@ -406,8 +407,23 @@ pub fn nudge_direction(fold_t: &[f64], null: &[f64], stable: &[f64]) -> Result<V
     Ok(null.iter().map(|v| sign * v).collect())
 }
 
-/// Integrates C dT/dt = F(T; p) at p = `fold_p` + `lost_side` · offset ·
-/// `width` from T₀ = `fold_t` + nudge_k · `direction` (`direction` with
+/// The parameter just past a fold at `fold_p` on its `lost_side` (+1 or -1),
+/// `offset` of the traced `range` away: p = p_f ± offset · |hi - lo|, or,
+/// for a parameter traced on a log scale (CO2, diffusivity:
+/// [`crate::analysis::edgetrace::log_scale`]), p = p_f · exp(± offset ·
+/// |ln(hi/lo)|), so that a fold near the low end of a range spanning decades
+/// is never stepped past zero.
+pub fn past_fold(param: Param, fold_p: f64, lost_side: f64, offset: f64, range: (f64, f64)) -> f64 {
+    let (lo, hi) = (range.0.min(range.1), range.0.max(range.1));
+    let side = lost_side.signum();
+    if crate::analysis::edgetrace::log_scale(param, lo) && fold_p > 0.0 {
+        fold_p * (side * offset * (hi / lo).ln()).exp()
+    } else {
+        fold_p + side * offset * (hi - lo)
+    }
+}
+
+/// Integrates C dT/dt = F(T; p) at p just past the fold ([`past_fold`]) from T₀ = `fold_t` + nudge_k · `direction` (`direction` with
 /// |·|∞ = 1, normally [`nudge_direction`]) until max |F| < settle
 /// tolerance, then polishes by Newton. The result must be a stable
 /// equilibrium (no eigenvalue of C⁻¹J with positive real part) that Newton
@@ -422,14 +438,14 @@ pub fn jump_from_fold(
     fold_t: &[f64],
     direction: &[f64],
     lost_side: f64,
-    width: f64,
+    range: (f64, f64),
     opts: &JumpOptions,
 ) -> Result<JumpOutcome, String> {
     let n = model.len();
     if fold_t.len() != n || direction.len() != n {
         return Err("the fold state or direction does not match the model's bands".into());
     }
-    let p = fold_p + lost_side.signum() * opts.offset * width.abs();
+    let p = past_fold(param, fold_p, lost_side, opts.offset, range);
     if !p.is_finite() || fold_t.iter().chain(direction).any(|x| !x.is_finite()) {
         return Err("the fold state, direction or parameter is not finite".into());
     }
@@ -586,7 +602,7 @@ pub fn integrate_jumps(
     model: &Model,
     param: Param,
     branches: &mut [TracedBranch],
-    width: f64,
+    range: (f64, f64),
     opts: &JumpOptions,
 ) {
     let snapshot: Vec<TracedBranch> = branches.to_vec();
@@ -631,7 +647,7 @@ pub fn integrate_jumps(
                         &f.point.temperature,
                         &dir,
                         lost_side,
-                        width,
+                        range,
                         opts,
                     )
                 });
