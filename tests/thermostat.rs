@@ -336,10 +336,14 @@ fn command_writes_every_output() {
 fn bad_input_exits_2_naming_the_field() {
     let d = temp_dir("thermostat-bad");
     let out = d.join("set");
-    let cases: [(&[&str], &[&str]); 5] = [
+    let cases: [(&[&str], &[&str]); 6] = [
         (
             &["--outgassing", "-1:2:3"],
             &["--outgassing", "FROM = -1", "> 0"],
+        ),
+        (
+            &["--outgassing", "0.1:10:3:geometric"],
+            &["--outgassing", "geometric", "lin, log"],
         ),
         (&["--outgassing", "0"], &["--outgassing", "V = 0", "> 0"]),
         (
@@ -384,4 +388,23 @@ fn bad_input_exits_2_naming_the_field() {
     assert_eq!(code, 1, "{stderr}");
     assert!(stderr.contains("does not cycle"), "{stderr}");
     assert!(!out.exists());
+}
+
+// `FROM:TO:COUNT:log` spaces the rates evenly in ln V, ends included:
+// V_k = FROM (TO/FROM)^(k/(COUNT-1)) (a geometric sequence: common
+// practice, no source); `lin` is the default spacing.
+#[test]
+fn log_spaced_outgassing() {
+    use icefold::cli::thermostat::parse_outgassing;
+    let v = parse_outgassing("0.01:100:5:log").unwrap();
+    assert_eq!(v.len(), 5);
+    for (k, x) in v.iter().enumerate() {
+        let want = 0.01 * 10f64.powi(k as i32);
+        assert!((x - want).abs() <= 1e-12 * want, "{k}: {x} vs {want}");
+    }
+    assert_eq!(
+        parse_outgassing("1:7:4:lin").unwrap(),
+        parse_outgassing("1:7:4").unwrap()
+    );
+    assert_eq!(parse_outgassing("1:7:4").unwrap(), vec![1.0, 3.0, 5.0, 7.0]);
 }

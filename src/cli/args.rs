@@ -246,9 +246,10 @@ pub struct ThermostatCmd {
     #[command(flatten)]
     #[allow(missing_docs)]
     pub scenario: ScenarioOpts,
-    /// Outgassing rates V in bar Gyr-1: one value, or FROM:TO:COUNT evenly
-    /// spaced, ends included (default: the scenario's weathering.outgassing).
-    #[arg(long, value_name = "V|FROM:TO:COUNT", allow_hyphen_values = true)]
+    /// Outgassing rates V in bar Gyr-1: one value, FROM:TO:COUNT evenly
+    /// spaced, or FROM:TO:COUNT:log evenly spaced in ln V, ends included
+    /// (default: the scenario's weathering.outgassing).
+    #[arg(long, value_name = "V|FROM:TO:COUNT[:log]", allow_hyphen_values = true)]
     pub outgassing: Option<String>,
     /// CO2 range of the trace of the fast climate, ppm (default 1:1000000).
     #[arg(long, value_name = "FROM:TO", allow_hyphen_values = true)]

@@ -39,14 +39,16 @@ fn outgassing_value(flag: &str, text: &str, field: &str) -> Result<f64, CliError
     Ok(v)
 }
 
-/// `--outgassing V` or `FROM:TO:COUNT` (evenly spaced, ends included,
-/// rounded to 12 significant digits as `trace` rounds its range ends).
+/// `--outgassing V`, `FROM:TO:COUNT` (evenly spaced, ends included) or
+/// `FROM:TO:COUNT:log` (V_k = FROM (TO/FROM)^(k/(COUNT-1)): evenly spaced in
+/// ln V, for rates spanning decades), each rounded to 12 significant digits
+/// as `trace` rounds its range ends.
 pub fn parse_outgassing(text: &str) -> Result<Vec<f64>, CliError> {
     let flag = "--outgassing";
     let parts: Vec<&str> = text.split(':').collect();
     match parts.len() {
         1 => Ok(vec![outgassing_value(flag, text, "V")?]),
-        3 => {
+        3 | 4 => {
             let from = outgassing_value(flag, parts[0], "FROM")?;
             let to = outgassing_value(flag, parts[1], "TO")?;
             let count: usize = parts[2]
@@ -63,12 +65,28 @@ pub fn parse_outgassing(text: &str) -> Result<Vec<f64>, CliError> {
                     "{flag} `{text}`: the range is empty or inverted (need FROM < TO)"
                 )));
             }
+            let log = match parts.get(3).map(|s| s.trim()) {
+                None | Some("lin") => false,
+                Some("log") => true,
+                Some(other) => {
+                    return Err(usage(format!(
+                        "{flag} `{text}`: spacing `{other}` is not one of lin, log"
+                    )));
+                }
+            };
+            let r = |k: usize| k as f64 / (count - 1) as f64;
             Ok((0..count)
-                .map(|k| super::trace::decimal(from + (to - from) * k as f64 / (count - 1) as f64))
+                .map(|k| {
+                    super::trace::decimal(if log {
+                        from * (to / from).powf(r(k))
+                    } else {
+                        from + (to - from) * r(k)
+                    })
+                })
                 .collect())
         }
         _ => Err(usage(format!(
-            "{flag} `{text}`: expected V or FROM:TO:COUNT in bar Gyr-1, e.g. 0.1:7:12"
+            "{flag} `{text}`: expected V, FROM:TO:COUNT or FROM:TO:COUNT:log in bar Gyr-1, e.g. 0.1:7:12"
         ))),
     }
 }
