@@ -408,3 +408,80 @@ fn log_spaced_outgassing() {
     );
     assert_eq!(parse_outgassing("1:7:4").unwrap(), vec![1.0, 3.0, 5.0, 7.0]);
 }
+
+// `thermostat --across`: every slice is the single thermostat at that value
+// (`--set KEY=VALUE`), row for row, and the map does not depend on the
+// number of threads (common practice, no source).
+#[test]
+fn thermostat_map_slices_equal_single_runs() {
+    let rates = "0.1:100:7:log";
+    let run = |name: &str, extra: &[&str]| {
+        let d = temp_dir(name);
+        let mut argv = vec![
+            "thermostat",
+            "scenarios/outer-edge.toml",
+            "--outgassing",
+            rates,
+            "--quiet",
+            "--out",
+            d.to_str().unwrap(),
+        ];
+        argv.extend(extra);
+        let (code, stdout, stderr) = icefold(&argv);
+        assert_eq!(code, 0, "{stderr}");
+        (d, stdout)
+    };
+    let across = "orbit.flux=1050:1250:5";
+    let (two, report) = run("thermomap-2", &["--across", across, "--threads", "2"]);
+    let (one, _) = run("thermomap-1", &["--across", across, "--threads", "1"]);
+    let map = std::fs::read_to_string(two.join("thermostat_map.csv")).unwrap();
+    assert_eq!(
+        map,
+        std::fs::read_to_string(one.join("thermostat_map.csv")).unwrap()
+    );
+    assert!(report.contains("cycles at"), "{report}");
+    let mut rows = map.lines();
+    let header = rows.next().unwrap();
+    assert!(header.starts_with("orbit.flux,outgassing_bar_per_gyr,outcome,"));
+    let rows: Vec<&str> = rows.collect();
+    assert_eq!(rows.len(), 5 * 7);
+    let mut cycling = 0;
+    for (k, flux) in ["1050", "1100", "1150", "1200", "1250"].iter().enumerate() {
+        let (single, _) = run(
+            &format!("thermomap-single-{k}"),
+            &["--set", &format!("orbit.flux={flux}")],
+        );
+        let csv = std::fs::read_to_string(single.join("thermostat.csv")).unwrap();
+        let want: Vec<&str> = csv.lines().skip(1).collect();
+        let got: Vec<&str> = rows[7 * k..7 * (k + 1)]
+            .iter()
+            .map(|r| r.split_once(',').unwrap())
+            .inspect(|(f, _)| assert_eq!(f, flux))
+            .map(|(_, rest)| rest)
+            .collect();
+        assert_eq!(got, want, "slice {flux}");
+        cycling += want.iter().filter(|r| r.contains(",cycles,")).count();
+    }
+    assert!(cycling > 0, "the window must hold some limit cycles");
+    // refused: the fast climate's own parameter, and --cycle-at with --across
+    for (extra, word) in [
+        (
+            vec!["--across", "radiation.co2_ppm=1:10:3"],
+            "radiation.co2_ppm",
+        ),
+        (vec!["--across", across, "--cycle-at", "0.1"], "--cycle-at"),
+    ] {
+        let d = temp_dir("thermomap-bad");
+        let mut argv = vec![
+            "thermostat",
+            "scenarios/outer-edge.toml",
+            "--out",
+            d.to_str().unwrap(),
+        ];
+        argv.extend(extra);
+        let (code, _, stderr) = icefold(&argv);
+        assert_eq!(code, 2, "{stderr}");
+        assert!(stderr.contains(word), "{stderr}");
+        assert!(!d.exists());
+    }
+}

@@ -254,6 +254,15 @@ pub struct ThermostatCmd {
     /// CO2 range of the trace of the fast climate, ppm (default 1:1000000).
     #[arg(long, value_name = "FROM:TO", allow_hyphen_values = true)]
     pub co2: Option<String>,
+    /// Also vary this parameter, KEY=FROM:TO:COUNT: one thermostat per
+    /// value, in parallel, written as thermostat_map.csv (where the planet
+    /// settles and where it cycles).
+    #[arg(long, value_name = "KEY=FROM:TO:COUNT")]
+    pub across: Option<String>,
+    /// Worker threads for --across (default: all cores); results do not
+    /// depend on it.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<String>,
     /// Write the cycle of this outgassing rate to cycle.csv (default: the
     /// first rate that cycles).
     #[arg(long, value_name = "V", allow_hyphen_values = true)]
@@ -339,6 +348,8 @@ impl Cli {
                 outgassing: c.outgassing,
                 co2: c.co2,
                 cycle_at: c.cycle_at,
+                across: c.across,
+                threads: c.threads,
                 ..base("thermostat", c.scenario, c.output, line)
             },
             Command::Sun(c) => base("sun", c.scenario, c.output, line),

@@ -61,7 +61,7 @@ pub(super) fn parse_across(
     Ok((param, from, to, count))
 }
 
-fn parse_count(
+pub(super) fn parse_count(
     flag: &str,
     v: &Option<String>,
     default: usize,

@@ -14,6 +14,7 @@ pub mod shard;
 pub mod solve;
 pub mod state;
 pub mod sun;
+pub mod thermomap;
 pub mod thermostat;
 pub mod trace;
 

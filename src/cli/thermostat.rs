@@ -3,7 +3,7 @@
 
 use super::context::{Args, CliError, load, newton_options, out_dir, provenance, written_list};
 use super::progress::Progress;
-use crate::analysis::branches::{TraceOptions, trace_all};
+use crate::analysis::branches::{Hysteresis, TraceOptions, trace_all};
 use crate::analysis::thermostat::{LimitCycle, Outcome, SlowAnalysis, Thermostat};
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::plot::{self, BranchCurve, ThermostatPlot};
@@ -182,6 +182,93 @@ fn settled(a: &SlowAnalysis) -> Option<&crate::analysis::thermostat::SlowEquilib
         .max_by(|x, y| x.global_mean_c.total_cmp(&y.global_mean_c))
 }
 
+/// The columns of `thermostat.csv`, one row per outgassing rate
+/// ([`run_row`]).
+pub(super) const RUN_COLUMNS: [&str; 15] = [
+    "outgassing_bar_per_gyr",
+    "outcome",
+    "co2_ppm",
+    "global_mean_temperature_c",
+    "ice_area_fraction",
+    "state",
+    "fast_stable",
+    "slow_stable",
+    "slow_equilibria",
+    "period_yr",
+    "snowball_yr",
+    "co2_min_ppm",
+    "co2_max_ppm",
+    "temperature_min_c",
+    "temperature_max_c",
+];
+
+/// One row of [`RUN_COLUMNS`]: the settled climate (the warmest stable slow
+/// equilibrium) or the cycle, empty cells where a column does not apply.
+pub(super) fn run_row(a: &SlowAnalysis) -> Vec<Cell> {
+    let empty = || Cell::Text(String::new());
+    let mut row = vec![Cell::Num(a.outgassing), outcome_label(&a.outcome).into()];
+    match settled(a) {
+        Some(e) => row.extend([
+            Cell::Num(e.co2_ppm),
+            Cell::Num(e.global_mean_c),
+            Cell::Num(e.ice_area_fraction),
+            e.state.label().into(),
+            e.fast_stable.into(),
+            e.slow_stable.into(),
+        ]),
+        None => row.extend((0..6).map(|_| empty())),
+    }
+    row.push(a.equilibria.len().into());
+    match &a.outcome {
+        Outcome::Cycles(c) => row.extend([
+            Cell::Num(c.period_yr),
+            Cell::Num(c.snowball_yr),
+            Cell::Num(c.co2_range_ppm.0),
+            Cell::Num(c.co2_range_ppm.1),
+            Cell::Num(c.temperature_range_c.0),
+            Cell::Num(c.temperature_range_c.1),
+        ]),
+        _ => row.extend((0..6).map(|_| empty())),
+    }
+    row
+}
+
+/// The fast climate of `model` traced in CO2 over `co2` (ppm), its
+/// thermostat, and the slow analysis of each outgassing rate in `values`;
+/// `progress` gets a line on each step.
+pub(super) fn slow_runs(
+    model: &crate::model::Model,
+    sc: &crate::io::scenario::Scenario,
+    values: &[f64],
+    (lo, hi): (f64, f64),
+    progress: &mut dyn FnMut(&str),
+) -> Result<(Hysteresis, Thermostat, Vec<SlowAnalysis>), CliError> {
+    let opts = TraceOptions {
+        tolerance: sc.num("solver.tolerance"),
+        integrate_jumps: false,
+        sensitivities: false,
+        ..TraceOptions::default()
+    };
+    let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
+    let h = trace_all(model, Param::Co2, lo, hi, warm, cold, &opts, &mut |m| {
+        progress(&format!("trace in CO2: {m}"))
+    });
+    let th = Thermostat::new(model, &h, sc.weathering(), newton_options(sc))
+        .map_err(|e| CliError::Failed(format!("thermostat: {e}")))?;
+    let mut runs = Vec::with_capacity(values.len());
+    for (k, &v) in values.iter().enumerate() {
+        progress(&format!(
+            "outgassing {k}/{}: V = {v} bar Gyr-1",
+            values.len()
+        ));
+        let a = th.analyse(v).map_err(|e| {
+            CliError::Failed(format!("thermostat at outgassing V = {v} bar Gyr-1: {e}"))
+        })?;
+        runs.push(a);
+    }
+    Ok((h, th, runs))
+}
+
 /// Runs `thermostat`.
 pub fn cmd_thermostat(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
@@ -203,32 +290,17 @@ pub fn cmd_thermostat(args: &Args) -> Result<String, CliError> {
         .as_deref()
         .map(|t| outgassing_value("--cycle-at", t, "V"))
         .transpose()?;
-    let model = sc.model();
-    let quiet = args.quiet;
-    let bar = Progress::spinner("thermostat", quiet);
-    let opts = TraceOptions {
-        tolerance: sc.num("solver.tolerance"),
-        integrate_jumps: false,
-        sensitivities: false,
-        ..TraceOptions::default()
-    };
-    let (warm, cold) = (sc.num("solver.warm_start"), sc.num("solver.cold_start"));
-    let h = trace_all(&model, Param::Co2, lo, hi, warm, cold, &opts, &mut |m| {
-        bar.message(&format!("trace in CO2: {m}"))
-    });
-    let th = Thermostat::new(&model, &h, sc.weathering(), newton_options(&sc))
-        .map_err(|e| CliError::Failed(format!("thermostat: {e}")))?;
-    let mut runs = Vec::with_capacity(values.len());
-    for (k, &v) in values.iter().enumerate() {
-        bar.message(&format!(
-            "outgassing {k}/{}: V = {v} bar Gyr-1",
-            values.len()
-        ));
-        let a = th.analyse(v).map_err(|e| {
-            CliError::Failed(format!("thermostat at outgassing V = {v} bar Gyr-1: {e}"))
-        })?;
-        runs.push(a);
+    if let Some(across) = &args.across {
+        if cycle_at.is_some() {
+            return Err(usage(
+                "--cycle-at: one cycle is written by a single thermostat; drop it with --across (every cycle's period and ranges are in thermostat_map.csv)".into(),
+            ));
+        }
+        return super::thermomap::cmd_thermostat_map(args, &sc, across, &values, (lo, hi));
     }
+    let model = sc.model();
+    let bar = Progress::spinner("thermostat", args.quiet);
+    let (h, th, runs) = slow_runs(&model, &sc, &values, (lo, hi), &mut |m| bar.message(m))?;
     // the cycle written out: --cycle-at, else the first cycling V
     let cycle_run = match cycle_at {
         Some(v) => {
@@ -250,50 +322,9 @@ pub fn cmd_thermostat(args: &Args) -> Result<String, CliError> {
     };
     bar.finish();
 
-    let mut table = Table::new(&[
-        "outgassing_bar_per_gyr",
-        "outcome",
-        "co2_ppm",
-        "global_mean_temperature_c",
-        "ice_area_fraction",
-        "state",
-        "fast_stable",
-        "slow_stable",
-        "slow_equilibria",
-        "period_yr",
-        "snowball_yr",
-        "co2_min_ppm",
-        "co2_max_ppm",
-        "temperature_min_c",
-        "temperature_max_c",
-    ]);
-    let empty = || Cell::Text(String::new());
+    let mut table = Table::new(&RUN_COLUMNS);
     for a in &runs {
-        let mut row = vec![Cell::Num(a.outgassing), outcome_label(&a.outcome).into()];
-        match settled(a) {
-            Some(e) => row.extend([
-                Cell::Num(e.co2_ppm),
-                Cell::Num(e.global_mean_c),
-                Cell::Num(e.ice_area_fraction),
-                e.state.label().into(),
-                e.fast_stable.into(),
-                e.slow_stable.into(),
-            ]),
-            None => row.extend((0..6).map(|_| empty())),
-        }
-        row.push(a.equilibria.len().into());
-        match &a.outcome {
-            Outcome::Cycles(c) => row.extend([
-                Cell::Num(c.period_yr),
-                Cell::Num(c.snowball_yr),
-                Cell::Num(c.co2_range_ppm.0),
-                Cell::Num(c.co2_range_ppm.1),
-                Cell::Num(c.temperature_range_c.0),
-                Cell::Num(c.temperature_range_c.1),
-            ]),
-            _ => row.extend((0..6).map(|_| empty())),
-        }
-        table.push_row(row);
+        table.push_row(run_row(a));
     }
     let mut cycle_table = Table::new(&[
         "time_yr",
