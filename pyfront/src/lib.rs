@@ -40,7 +40,7 @@ fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
             "vary" => args.vary = Some(v),
             "from" => args.from = Some(v),
             "to" => args.to = Some(v),
-            "across" => args.across = Some(v),
+            "across" => args.across = vec![v],
             "cells" => args.cells = Some(v),
             "threads" => args.threads = Some(v),
             "shard" => args.shard = Some(v),

@@ -159,9 +159,10 @@ pub struct MapCmd {
     #[allow(missing_docs)]
     pub scenario: ScenarioOpts,
     /// The slice parameter and its grid, KEY=FROM:TO:COUNT (default
-    /// orbit.obliquity=0:90:91).
+    /// orbit.obliquity=0:90:91). Repeatable (up to 4 keys): the slices are
+    /// the product of the grids, the first key varying slowest.
     #[arg(long, value_name = "KEY=FROM:TO:COUNT")]
-    pub across: Option<String>,
+    pub across: Vec<String>,
     #[command(flatten)]
     #[allow(missing_docs)]
     pub range: RangeOpts,
