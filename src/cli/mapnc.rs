@@ -16,7 +16,8 @@ fn sanitize(key: &str) -> String {
 /// past a cell's count) its state, global mean temperature, ice edges
 /// (most poleward per hemisphere) and habitable fraction. `slices` are
 /// the map's slices in slice order (flattened product, first across key
-/// slowest), `ys` the cell centres, `regime`, `count` the per-cell grids
+/// slowest; their cell climates are moved into the arrays, leaving
+/// them empty), `ys` the cell centres, `regime`, `count` the per-cell grids
 /// (cell c of slice j at index `c * slices.len() + j`: dimensions
 /// (vary cell, first across key, ..., last across key), C order).
 pub(super) fn map_netcdf(
@@ -24,7 +25,7 @@ pub(super) fn map_netcdf(
     spec: &MapSpec,
     name: &str,
     scenario_toml: &str,
-    slices: &[Kept],
+    slices: &mut [Kept],
     ys: &[f64],
     (regime, count): (&[i32], &[i32]),
 ) -> Result<NcFile, CliError> {
@@ -41,8 +42,10 @@ pub(super) fn map_netcdf(
     let mut north = vec![FILL_F64; ny * nx * nclim];
     let mut south = vec![FILL_F64; ny * nx * nclim];
     let mut habitable = vec![FILL_F64; ny * nx * nclim];
-    for (i, s) in slices.iter().enumerate() {
-        for (j, cell) in s.slice.climates.iter().enumerate().take(ny) {
+    for (i, s) in slices.iter_mut().enumerate() {
+        // taken, not copied: the arrays hold them from here on
+        let climates = std::mem::take(&mut s.slice.climates);
+        for (j, cell) in climates.iter().enumerate().take(ny) {
             for (k, c) in cell.iter().enumerate() {
                 let at = (j * nx + i) * nclim + k;
                 state[at] = c.state as i32;

@@ -215,7 +215,7 @@ impl<'a> MapWriter<'a> {
     /// failed (nothing written), or a file that cannot be built.
     #[allow(clippy::too_many_arguments)]
     pub(super) fn finish(
-        self,
+        mut self,
         scenario: &serde_json::Value,
         scenario_toml: &str,
         name: &str,
@@ -226,14 +226,11 @@ impl<'a> MapWriter<'a> {
         let (mm, spec) = (self.mm, self.spec);
         let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
         // a slice with no branch traced failed: it is not "no stable climate"
-        let failed: Vec<&Slice> = self
-            .kept
-            .iter()
-            .filter(|k| k.failed)
-            .map(|k| &k.slice)
+        let failed: Vec<usize> = (0..self.kept.len())
+            .filter(|&j| self.kept[j].failed)
             .collect();
         if !self.kept.is_empty() && failed.len() == self.kept.len() {
-            let s = failed[0];
+            let s = &self.kept[failed[0]].slice;
             return Err(CliError::Failed(format!(
                 "every slice of the map failed (no branch traced); slice {} ({}): {}; nothing written",
                 s.index,
@@ -245,7 +242,11 @@ impl<'a> MapWriter<'a> {
                 }
             )));
         }
-        out.add_text(dir.join("map.csv"), &self.csv);
+        // moved, not copied: map.csv is the largest file of a map
+        out.add(
+            dir.join("map.csv"),
+            std::mem::take(&mut self.csv).into_bytes(),
+        );
         // boundaries.csv
         let bounds = self.boundaries(scenario);
         let mut cols = vec!["curve", "method", "transition", ak];
@@ -288,12 +289,13 @@ impl<'a> MapWriter<'a> {
             }
         }
         let ys: Vec<f64> = (0..ny).map(|c| spec.cell_value(c)).collect();
+        // (map_netcdf takes each slice's cell climates as it copies them)
         let nc = map_netcdf(
             mm,
             spec,
             name,
             scenario_toml,
-            &self.kept,
+            &mut self.kept,
             &ys,
             (&regime, &count),
         )?;
@@ -423,6 +425,7 @@ impl<'a> MapWriter<'a> {
             },
             "failed_slices": failed
                 .iter()
+                .map(|&j| &self.kept[j].slice)
                 .map(|s| entry(s, "reasons", serde_json::json!(s.notes)))
                 .collect::<Vec<_>>(),
         });
