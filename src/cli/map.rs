@@ -1,5 +1,5 @@
 //! `icefold map`: regime maps over one traced parameter and one to
-//! [`MAX_ACROSS_KEYS`] slice parameters (the files: [`super::mapout`];
+//! 4 slice parameters (the files: `super::mapout`;
 //! shards and `merge`: [`super::shard`]).
 use super::context::{Args, CliError, VERSION, load, written_list};
 use super::mapout::{MapWriter, Tally, residual_column, scenario_num};

@@ -1,9 +1,9 @@
 //! The files of a map (`map.csv`, `boundaries.csv`, `map.nc`, the figure,
 //! `summary.json`), built from slices handed on one at a time in slice
-//! order ([`MapWriter::push`]): a slice's traced points become its
+//! order ((`MapWriter::push`)): a slice's traced points become its
 //! `map.csv` rows at once and are dropped; what stays per slice is what
 //! the other files need (its cells' climates, folds and notes).
-//! `map.nc` is written by [`map_netcdf`] in [`super::mapnc`].
+//! `map.nc` is written by `map_netcdf` in `super::mapnc`.
 use super::context::{CliError, VERSION};
 use super::mapnc::map_netcdf;
 use crate::analysis::sweep::{Boundary, MapModel, MapSpec, Slice, join_boundaries, regime_label};
