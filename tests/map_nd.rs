@@ -385,6 +385,45 @@ fn ordered_run_stops() {
     assert_eq!(r, Err(OrderedStop::Sink("seven")));
 }
 
+/// A panic in the work of one item, or in the sink, reaches the caller
+/// (the run neither hangs nor loses it) (common practice, no source).
+#[test]
+fn ordered_run_passes_panics_on() {
+    let items: Vec<usize> = (0..50).collect();
+    let r = std::panic::catch_unwind(|| {
+        run_ordered(
+            &items,
+            2,
+            3,
+            |&i| {
+                assert!(i != 9, "item nine");
+                Some(i)
+            },
+            |_| Ok::<(), ()>(()),
+        )
+    });
+    let msg = r.unwrap_err();
+    let text = msg
+        .downcast_ref::<String>()
+        .cloned()
+        .or_else(|| msg.downcast_ref::<&str>().map(|s| s.to_string()))
+        .unwrap_or_default();
+    assert!(text.contains("item nine"), "{text}");
+    let r = std::panic::catch_unwind(|| {
+        run_ordered(
+            &items,
+            2,
+            3,
+            |&i| Some(i),
+            |i| {
+                assert!(i != 4, "sink four");
+                Ok::<(), ()>(())
+            },
+        )
+    });
+    assert!(r.is_err());
+}
+
 /// A payload that counts how many of its kind are alive.
 struct Counted(&'static AtomicUsize);
 

@@ -36,6 +36,24 @@ struct State<T> {
     /// Set when the run stops early: workers take no more items.
     stop: bool,
     peak: usize,
+    /// The panic of a worker's `work`, re-raised on the calling thread.
+    panic: Option<Box<dyn std::any::Any + Send>>,
+}
+
+/// Stops the workers when dropped: at the end of the run, and when the
+/// calling thread unwinds (a panicking sink), so that no worker waits for
+/// a window that will not move and the scope can join them.
+struct StopOnDrop<'a, T> {
+    state: &'a Mutex<State<T>>,
+    changed: &'a Condvar,
+}
+
+impl<T> Drop for StopOnDrop<'_, T> {
+    fn drop(&mut self) {
+        let mut s = self.state.lock().unwrap_or_else(|e| e.into_inner());
+        s.stop = true;
+        self.changed.notify_all();
+    }
 }
 
 /// Runs `work(item)` for every item on `threads` worker threads (at least
@@ -48,7 +66,9 @@ struct State<T> {
 /// of its item.
 ///
 /// `work` returning `None` cancels the run (workers take no more items;
-/// [`OrderedStop::Cancelled`]); `sink` returning an error stops it too.
+/// [`OrderedStop::Cancelled`]); `sink` returning an error stops it too. A
+/// panic in `work` or `sink` stops the workers and is re-raised on the
+/// calling thread once they have ended.
 pub fn run_ordered<I, T, E>(
     items: &[I],
     threads: usize,
@@ -67,6 +87,7 @@ where
         held: BTreeMap::new(),
         stop: false,
         peak: 0,
+        panic: None,
     });
     let changed = Condvar::new();
     // a poisoned lock means a worker panicked: std::thread::scope re-raises
@@ -85,10 +106,18 @@ where
                 s.next_take += 1;
                 s.next_take - 1
             };
-            let r = work(&items[k]);
+            let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| work(&items[k])));
             let mut s = lock();
-            s.held.insert(k, r);
-            s.peak = s.peak.max(s.held.len());
+            match r {
+                Ok(r) => {
+                    s.held.insert(k, r);
+                    s.peak = s.peak.max(s.held.len());
+                }
+                Err(p) => {
+                    s.stop = true;
+                    s.panic.get_or_insert(p);
+                }
+            }
             changed.notify_all();
         }
     };
@@ -96,6 +125,10 @@ where
         for _ in 0..threads.max(1) {
             scope.spawn(worker);
         }
+        let _stop = StopOnDrop {
+            state: &state,
+            changed: &changed,
+        };
         let mut handed = 0;
         let stop = |why| {
             let mut s = lock();
@@ -107,6 +140,11 @@ where
             let next = {
                 let mut s = lock();
                 loop {
+                    if let Some(p) = s.panic.take() {
+                        drop(s);
+                        // _stop stops the other workers as this unwinds
+                        std::panic::resume_unwind(p);
+                    }
                     if let Some(r) = s.held.remove(&handed) {
                         s.next_give = handed + 1;
                         changed.notify_all();
