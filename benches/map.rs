@@ -1,6 +1,7 @@
 //! Regime-map figures (criterion, not timed tests): `cargo bench --bench map`.
 //! 91 obliquity slices at 90 bands over the default flux range on 1 and 2
-//! threads (and on 1 thread with the sub-grid ice fraction, the formulation
+//! threads (on 2 also as the `map` command drives them, handed on in
+//! slice order; and on 1 thread with the sub-grid ice fraction, the formulation
 //! before the ice edges became unknowns), and a brute-force grid of spin-ups (91 x 200 cells, each
 //! time-stepped from a warm and a cold start) on 2 threads. A summary after
 //! criterion's report prints the speed-up and the map against brute force
@@ -36,6 +37,37 @@ fn slices(model: &Model, spec: &MapSpec) -> Vec<Slice> {
             )
         })
         .collect()
+}
+
+/// The map as the `map` command drives it: `threads` workers, slices handed
+/// on in slice order with at most 4 per thread finished ahead
+/// ([`icefold::analysis::ordered::run_ordered`]).
+fn slices_ordered(model: &Model, spec: &MapSpec, threads: usize) -> Vec<Slice> {
+    let idx: Vec<usize> = (0..spec.count).collect();
+    let mut out = Vec::with_capacity(spec.count);
+    icefold::analysis::ordered::run_ordered(
+        &idx,
+        threads,
+        4 * threads,
+        |&j| {
+            Some(compute_slice(
+                model,
+                spec,
+                Param::Obliquity,
+                Param::Flux,
+                j,
+                30.0,
+                -60.0,
+                1e-10,
+            ))
+        },
+        |s| {
+            out.push(s);
+            Ok::<(), ()>(())
+        },
+    )
+    .unwrap();
+    out
 }
 
 /// The same map with each slice traced by the sub-grid ice fraction (the
@@ -109,6 +141,7 @@ fn main() {
         vary_to: 1.15 * flux,
         cells: 200,
         fold_curves: false,
+        more: Vec::new(),
     };
     let pool = |threads: usize| {
         rayon::ThreadPoolBuilder::new()
@@ -127,6 +160,10 @@ fn main() {
             b.iter(|| *out = Some(p.install(|| slices(&model, &spec))))
         });
     }
+    let mut ordered = None;
+    g.bench_function("ordered-threads=2", |b| {
+        b.iter(|| ordered = Some(slices_ordered(&model, &spec, 2)))
+    });
     let p = pool(1);
     g.bench_function("subgrid-threads=1", |b| {
         b.iter(|| p.install(|| slices_subgrid(&model, &spec)))
@@ -150,9 +187,17 @@ fn main() {
             "map of 91 obliquity slices x 200 flux cells at 90 bands: {points} traced points, identical on 1 and 2 threads"
         ));
     }
+    if let (Some(Some(one)), Some(o)) = (results.first(), &ordered) {
+        assert_eq!(one, o, "the ordered driver's slices differ");
+    }
     s.ratio(
         "map on 2 threads vs 1 thread",
         &["map", "threads=2"],
+        &["map", "threads=1"],
+    );
+    s.ratio(
+        "map on 2 threads as `map` drives it (slices handed on in order) vs 1 thread",
+        &["map", "ordered-threads=2"],
         &["map", "threads=1"],
     );
     s.ratio(

@@ -53,6 +53,7 @@ fn main() {
         vary_to: 1.15 * flux,
         cells: 200,
         fold_curves: false,
+        more: Vec::new(),
     };
     let pool = |threads: usize| {
         rayon::ThreadPoolBuilder::new()

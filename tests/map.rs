@@ -243,6 +243,7 @@ fn slice_equals_independent_trace() {
         vary_to: 1400.0,
         cells: 20,
         fold_curves: false,
+        more: Vec::new(),
     };
     let slice = compute_slice(
         &model,

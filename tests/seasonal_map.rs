@@ -45,6 +45,7 @@ fn spec() -> MapSpec {
         vary_to: 1300.0,
         cells: 20,
         fold_curves: false,
+        more: Vec::new(),
     }
 }
 

@@ -342,7 +342,7 @@ def map(
     scenario: PathLike = None,
     sets: Optional[Mapping[str, Any]] = None,
     *,
-    across: Optional[str] = None,
+    across: Union[str, Iterable[str], None] = None,
     vary: Optional[str] = None,
     start: Optional[float] = None,
     stop: Optional[float] = None,
@@ -358,9 +358,12 @@ def map(
     cell, each climate's state, temperature, ice edges and habitable
     fraction; its global attributes as ``file_*`` attributes), plus
     ``map.csv`` along ``point`` (variables ``point_*``) and the joined
-    fold curves along ``boundary`` (``boundary_*``). ``across`` is ``KEY=FROM:TO:COUNT``."""
-    opts = [
-        ("across", across),
+    fold curves along ``boundary`` (``boundary_*``). ``across`` is ``KEY=FROM:TO:COUNT``,
+    or a list of them for a map over several keys (the command's repeated
+    ``--across``, the first slowest): ``map.nc`` then has one dimension per
+    key."""
+    acrosses = [across] if across is None or isinstance(across, str) else list(across)
+    opts = [("across", a) for a in acrosses] + [
         ("vary", vary),
         ("from", start),
         ("to", stop),

@@ -33,14 +33,15 @@ const OUT: &str = "icefold-output";
 /// The options a command takes, as (name, text) pairs in the command
 /// line's spelling without dashes (`vary`, `from`, `to`, `across`,
 /// `cells`, `threads`, `shard`, `years`, `start`, `outgassing`, `co2`,
-/// `cycle-at`; flags `fold-curves`, `hierarchy` with the text "true").
+/// `cycle-at`; flags `fold-curves`, `hierarchy` with the text "true");
+/// `across` may come more than once (one `--across` each, in order).
 fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
     for (k, v) in options {
         match k.as_str() {
             "vary" => args.vary = Some(v),
             "from" => args.from = Some(v),
             "to" => args.to = Some(v),
-            "across" => args.across = Some(v),
+            "across" => args.across.push(v),
             "cells" => args.cells = Some(v),
             "threads" => args.threads = Some(v),
             "shard" => args.shard = Some(v),

@@ -15,6 +15,7 @@ pub mod cycle;
 pub mod edgetrace;
 pub mod foldcurve;
 pub mod jumps;
+pub mod ordered;
 pub mod periodic;
 pub mod sensitivity;
 pub mod skeleton;

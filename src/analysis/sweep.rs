@@ -31,12 +31,76 @@ pub struct MapSpec {
     /// Also continue each boundary's fold in two parameters.
     #[serde(default)]
     pub fold_curves: bool,
+    /// Further slice parameters after the first (`--across` given more
+    /// than once): the slices are the Cartesian product of every across
+    /// grid, the first key varying slowest. Empty for a map over one key
+    /// (and then not written, so such a spec reads and writes as before).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub more: Vec<AcrossAxis>,
+}
+
+/// A further slice parameter of a map over more than one across key.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct AcrossAxis {
+    /// Key of the parameter.
+    pub key: String,
+    /// First value.
+    pub from: f64,
+    /// Last value.
+    pub to: f64,
+    /// Number of values (>= 2), evenly spaced, ends included.
+    pub count: usize,
+}
+
+impl AcrossAxis {
+    /// Value i of the axis: from + (to - from) i / (count - 1).
+    pub fn value(&self, i: usize) -> f64 {
+        self.from + (self.to - self.from) * i as f64 / (self.count - 1) as f64
+    }
 }
 
 impl MapSpec {
-    /// The across value of slice j: from + (to - from) j / (count - 1).
+    /// Number of slices: the product of the counts of every across key
+    /// (`count` for a map over one key).
+    pub fn slices(&self) -> usize {
+        self.more.iter().fold(self.count, |n, a| n * a.count)
+    }
+
+    /// Number of slices per value of the first across key: the product of
+    /// the counts of the further keys (1 for a map over one key).
+    pub fn inner(&self) -> usize {
+        self.more.iter().map(|a| a.count).product()
+    }
+
+    /// The first across key's value at slice j of the flattened product
+    /// (first key slowest): i = j / [`MapSpec::inner`], from + (to - from)
+    /// i / (count - 1); for one key, slice j's value.
     pub fn across_value(&self, j: usize) -> f64 {
-        self.across_from + (self.across_to - self.across_from) * j as f64 / (self.count - 1) as f64
+        let i = j / self.inner();
+        self.across_from + (self.across_to - self.across_from) * i as f64 / (self.count - 1) as f64
+    }
+
+    /// The values of the further across keys at slice j ([`MapSpec::more`]
+    /// order, the last key fastest); empty for one key.
+    pub fn more_values(&self, j: usize) -> Vec<f64> {
+        let mut rest = j % self.inner();
+        let mut out = vec![0.0; self.more.len()];
+        for (k, a) in self.more.iter().enumerate().rev() {
+            out[k] = a.value(rest % a.count);
+            rest /= a.count;
+        }
+        out
+    }
+
+    /// The further across parameters and their values at slice j (keys
+    /// that are not parameters, which a validated spec never has, are
+    /// skipped).
+    pub fn more_params(&self, j: usize) -> Vec<(Param, f64)> {
+        self.more
+            .iter()
+            .zip(self.more_values(j))
+            .filter_map(|(a, v)| Param::from_key(&a.key).map(|p| (p, v)))
+            .collect()
     }
 
     /// Centre value of summary cell c along the traced axis.
@@ -52,8 +116,13 @@ impl MapSpec {
         } else {
             ""
         };
+        let more: String = self
+            .more
+            .iter()
+            .map(|a| format!(" --across {}={}:{}:{}", a.key, a.from, a.to, a.count))
+            .collect();
         format!(
-            "icefold map --across {}={}:{}:{} --vary {} --from {} --to {} --cells {}{extra}",
+            "icefold map --across {}={}:{}:{}{more} --vary {} --from {} --to {} --cells {}{extra}",
             self.across,
             self.across_from,
             self.across_to,
@@ -130,8 +199,12 @@ pub struct CellClimate {
 pub struct Slice {
     /// Slice index j.
     pub index: usize,
-    /// Across value.
+    /// Across value (of the first across key).
     pub across: f64,
+    /// Values of the further across keys ([`MapSpec::more`]); empty, and
+    /// not written, for a map over one key.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub more: Vec<f64>,
     /// Traced points.
     pub points: Vec<MapPoint>,
     /// Folds.
@@ -261,6 +334,7 @@ pub fn reduce(spec: &MapSpec, index: usize, across: f64, h: &Hysteresis) -> Slic
     Slice {
         index,
         across,
+        more: spec.more_values(index),
         points,
         folds,
         regime,
@@ -285,6 +359,9 @@ pub fn compute_slice(
     let mut m = model.clone();
     let a = spec.across_value(j);
     m.set_param(across, a);
+    for (p, v) in spec.more_params(j) {
+        m.set_param(p, v);
+    }
     // a map needs the regimes and each fold's target, not the transition
     // times or the sensitivities: jumps are the branch-list targets
     let opts = TraceOptions {
@@ -447,6 +524,9 @@ pub fn compute_seasonal_slice(
     let mut sm = sm.clone();
     let a = spec.across_value(j);
     sm.set_param(across, a);
+    for (p, v) in spec.more_params(j) {
+        sm.set_param(p, v);
+    }
     let mut h = trace_seasonal(
         &sm,
         vary,
@@ -499,7 +579,7 @@ pub struct Boundary {
 /// folds of one transition are ordered by value, and the k-th fold of a
 /// transition joins the k-th of the same transition in the next slice. A
 /// curve breaks where a slice has no such fold.
-pub fn join_boundaries(slices: &[Slice]) -> Vec<Boundary> {
+pub fn join_boundaries<'a>(slices: impl IntoIterator<Item = &'a Slice>) -> Vec<Boundary> {
     let mut done: Vec<Boundary> = Vec::new();
     let mut open: Vec<(String, usize, Boundary)> = Vec::new();
     for s in slices {

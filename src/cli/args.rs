@@ -173,9 +173,10 @@ pub struct MapCmd {
     #[allow(missing_docs)]
     pub scenario: ScenarioOpts,
     /// The slice parameter and its grid, KEY=FROM:TO:COUNT (default
-    /// orbit.obliquity=0:90:91).
+    /// orbit.obliquity=0:90:91). Repeatable (up to 4 keys): the slices are
+    /// the product of the grids, the first key varying slowest.
     #[arg(long, value_name = "KEY=FROM:TO:COUNT")]
-    pub across: Option<String>,
+    pub across: Vec<String>,
     #[command(flatten)]
     #[allow(missing_docs)]
     pub range: RangeOpts,
@@ -348,7 +349,7 @@ impl Cli {
                 outgassing: c.outgassing,
                 co2: c.co2,
                 cycle_at: c.cycle_at,
-                across: c.across,
+                across: c.across.into_iter().collect(),
                 threads: c.threads,
                 ..base("thermostat", c.scenario, c.output, line)
             },

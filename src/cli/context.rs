@@ -61,8 +61,8 @@ pub struct Args {
     pub to: Option<String>,
     /// `--quiet`.
     pub quiet: bool,
-    /// `--across KEY=FROM:TO:COUNT` (map).
-    pub across: Option<String>,
+    /// `--across KEY=FROM:TO:COUNT` (map), each time it is given, in order.
+    pub across: Vec<String>,
     /// `--cells N` (map).
     pub cells: Option<String>,
     /// `--threads N` (map).

@@ -8,6 +8,8 @@ pub mod context;
 pub mod figures;
 pub mod hierarchy;
 pub mod map;
+mod mapnc;
+mod mapout;
 pub mod progress;
 pub mod seasons;
 pub mod shard;

@@ -2,7 +2,8 @@
 //! check of every field, and `icefold merge`, which joins shards into
 //! exactly the files of a single run.
 use super::context::{Args, CliError, written_list};
-use super::map::{map_model, map_report, parse_across, render, seasonal_key_error, usage};
+use super::map::{map_model, map_report, parse_acrosses, seasonal_key_error, usage};
+use super::mapout::{MapWriter, scenario_num};
 use crate::analysis::sweep::{MapModel, MapSpec, Slice};
 use crate::io::export::OutputSet;
 use crate::model::Param;
@@ -86,38 +87,48 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<MapModel, CliError> {
     }
     let model = mm.annual();
     let sp = &shard.spec;
-    let across_text = format!(
-        "{}={}:{}:{}",
-        sp.across, sp.across_from, sp.across_to, sp.count
-    );
-    let (ap, a_from, a_to, count) = parse_across(&across_text, &model).map_err(|e| {
-        bad(
-            "spec.across".into(),
-            format!("is not a valid --across ({e})"),
-        )
-    })?;
-    if (a_from, a_to, count) != (sp.across_from, sp.across_to, sp.count) {
-        return Err(bad(
-            "spec.across".into(),
-            format!("= `{across_text}` does not read back"),
-        ));
-    }
     let vp = Param::from_key(&sp.vary).ok_or_else(|| {
         bad(
             "spec.vary".into(),
             format!("= `{}` is not a key --vary takes", sp.vary),
         )
     })?;
-    if vp == ap {
-        return Err(bad("spec.vary".into(), "equals spec.across".into()));
-    }
     if !model.has_param(vp) {
         return Err(bad(
             "spec.vary".into(),
             format!("= `{}` does not apply to the scenario", sp.vary),
         ));
     }
-    for (field, flag, p) in [("spec.across", "--across", ap), ("spec.vary", "--vary", vp)] {
+    let mut across_texts = vec![format!(
+        "{}={}:{}:{}",
+        sp.across, sp.across_from, sp.across_to, sp.count
+    )];
+    across_texts.extend(
+        sp.more
+            .iter()
+            .map(|a| format!("{}={}:{}:{}", a.key, a.from, a.to, a.count)),
+    );
+    let super::map::Acrosses {
+        params,
+        first,
+        more,
+    } = parse_acrosses(&across_texts, &model, vp).map_err(|e| {
+        bad(
+            "spec.across".into(),
+            format!("is not a valid set of --across ({e})"),
+        )
+    })?;
+    if first != (sp.across_from, sp.across_to, sp.count) || more != sp.more {
+        return Err(bad(
+            "spec.across".into(),
+            format!("= `{}` does not read back", across_texts.join(" ")),
+        ));
+    }
+    for (field, flag, p) in params
+        .iter()
+        .map(|p| ("spec.across", "--across", *p))
+        .chain([("spec.vary", "--vary", vp)])
+    {
         if let Some(e) = seasonal_key_error(&mm, flag, p) {
             return Err(bad(field.into(), format!("is refused: {e}")));
         }
@@ -165,12 +176,28 @@ fn validate_shard(f: &Path, shard: &ShardFile) -> Result<MapModel, CliError> {
     let in_range = |v: f64| v.is_finite() && v >= sp.vary_from - slack && v <= sp.vary_to + slack;
     for (si, s) in shard.slices.iter().enumerate() {
         let at = |field: &str| format!("slices[{si}].{field}");
-        if s.index >= sp.count || s.index % n != k {
+        if s.index >= sp.slices() || s.index % n != k {
             return Err(bad(
                 at("index"),
                 format!(
                     "= {} is not a slice of shard {k}/{n} of {} slices",
-                    s.index, sp.count
+                    s.index,
+                    sp.slices()
+                ),
+            ));
+        }
+        let want = sp.more_values(s.index);
+        if s.more.len() != want.len()
+            || s.more
+                .iter()
+                .zip(&want)
+                .any(|(a, b)| a.to_bits() != b.to_bits())
+        {
+            return Err(bad(
+                at("more"),
+                format!(
+                    "= {:?} are not the grid values {want:?} of the further across keys at slice {}",
+                    s.more, s.index
                 ),
             ));
         }
@@ -349,7 +376,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
             }
         }
         for s in &shard.slices {
-            if s.index >= shard.spec.count
+            if s.index >= shard.spec.slices()
                 || s.regime.len() != shard.spec.cells
                 || s.stable_count.len() != shard.spec.cells
                 || s.climates.len() != shard.spec.cells
@@ -383,7 +410,7 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         }
     }
     let meta = first.ok_or_else(|| usage("no shards given".into()))?;
-    let missing: Vec<usize> = (0..meta.spec.count)
+    let missing: Vec<usize> = (0..meta.spec.slices())
         .filter(|j| !slices.contains_key(j))
         .collect();
     if !missing.is_empty() {
@@ -391,11 +418,10 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
         return Err(usage(format!(
             "{} of {} slices missing (e.g. {}); run the remaining shards",
             missing.len(),
-            meta.spec.count,
+            meta.spec.slices(),
             list.join(", ")
         )));
     }
-    let slices: Vec<Slice> = slices.into_values().collect();
     let name = meta
         .scenario
         .get("name")
@@ -410,18 +436,21 @@ pub fn cmd_merge(args: &Args) -> Result<String, CliError> {
     let sc = crate::io::scenario::Scenario::parse(&meta.scenario_toml, "shard", &[])
         .map_err(|e| usage(format!("shard scenario: {e}")))?;
     let mm = map_model(&sc)?;
-    render(
-        &mm,
-        &meta.spec,
+    let tol = scenario_num(&meta.scenario, "solver.tolerance", 1e-10);
+    let mut writer = MapWriter::new(&mm, &meta.spec, tol);
+    // in slice order, each slice dropped from the shards' set as it is
+    // written (its points into map.csv)
+    while let Some((_, s)) = slices.pop_first() {
+        writer.push(s)?;
+    }
+    let tally = writer.finish(
         &meta.scenario,
         &meta.scenario_toml,
         &name,
-        &slices,
         &dir,
         &mut out,
         args.figures,
     )?;
     let written = super::context::publish(out, &dir, args)?;
-    let tol = super::map::scenario_num(&meta.scenario, "solver.tolerance", 1e-10);
-    Ok(map_report(&mm, &meta.spec, tol, &slices) + &written_list(&written))
+    Ok(map_report(&mm, &meta.spec, tol, &tally) + &written_list(&written))
 }

@@ -290,7 +290,7 @@ pub fn cmd_thermostat(args: &Args) -> Result<String, CliError> {
         .as_deref()
         .map(|t| outgassing_value("--cycle-at", t, "V"))
         .transpose()?;
-    if let Some(across) = &args.across {
+    if let Some(across) = args.across.first() {
         if cycle_at.is_some() {
             return Err(usage(
                 "--cycle-at: one cycle is written by a single thermostat; drop it with --across (every cycle's period and ranges are in thermostat_map.csv)".into(),
