@@ -50,7 +50,7 @@ impl MapSpec {
         let extra = if self.fold_curves {
             " --fold-curves"
         } else {
-            ""
+            " --no-fold-curves"
         };
         format!(
             "icefold map --across {}={}:{}:{} --vary {} --from {} --to {} --cells {}{extra}",

@@ -213,7 +213,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         vary_from: v_from,
         vary_to: v_to,
         cells,
-        fold_curves: args.fold_curves,
+        fold_curves: !args.no_fold_curves && matches!(mm, MapModel::Annual(_)),
     };
     let indices: Vec<usize> = (0..count)
         .filter(|j| shard.is_none_or(|(k, n)| j % n == k))
