@@ -1,6 +1,8 @@
 //! Fold-curve figures (criterion, not timed tests): `cargo bench --bench
 //! fold_curve`. The snowball fold of the default scenario at obliquity 23
-//! continued over obliquity 0 to 90 in the default map's flux range, by the
+//! continued over obliquity 0 to 90 (and, beside it, over CO2 140 to 560
+//! ppm, a parameter that is cheap to set: a change of obliquity rebuilds
+//! the insolation table) in the default map's flux range, by the
 //! banded O(n) solver at 90 and 360 bands and by the dense reference at 90
 //! bands (at 360 bands the dense solver is timed once, outside criterion,
 //! only if the 90-band time scaled by 4³ is under a minute); and the
@@ -53,15 +55,20 @@ fn fold_at(bands: usize) -> (Model, Vec<f64>, f64, (f64, f64)) {
     (m, u, p, range)
 }
 
-fn curve(fold: &(Model, Vec<f64>, f64, (f64, f64)), solver: FoldSolver) -> usize {
+fn curve(fold: &(Model, Vec<f64>, f64, (f64, f64)), across: Param, solver: FoldSolver) -> usize {
     let (m, u, p, range) = fold;
+    let across_range = if across == Param::Obliquity {
+        (0.0, 90.0)
+    } else {
+        (140.0, 560.0)
+    };
     trace_fold_curve_with(
         m,
         Param::Flux,
-        Param::Obliquity,
+        across,
         u,
         *p,
-        (0.0, 90.0),
+        across_range,
         *range,
         1e-10,
         solver,
@@ -111,19 +118,24 @@ fn main() {
     let mut c = Criterion::default().without_plots().configure_from_args();
     let f90 = fold_at(90);
     let f360 = fold_at(360);
-    let mut points = [0usize; 3];
-    let mut g = c.benchmark_group("fold_curve");
-    g.sample_size(10);
-    g.bench_function("banded-360", |b| {
-        b.iter(|| points[0] = curve(&f360, FoldSolver::Banded))
-    });
-    g.bench_function("banded-90", |b| {
-        b.iter(|| points[1] = curve(&f90, FoldSolver::Banded))
-    });
-    g.bench_function("dense-90", |b| {
-        b.iter(|| points[2] = curve(&f90, FoldSolver::Dense))
-    });
-    g.finish();
+    let mut points = [0usize; 6];
+    for (group, across, k) in [
+        ("fold_curve", Param::Obliquity, 0),
+        ("fold_curve_co2", Param::Co2, 3),
+    ] {
+        let mut g = c.benchmark_group(group);
+        g.sample_size(10);
+        g.bench_function("banded-360", |b| {
+            b.iter(|| points[k] = curve(&f360, across, FoldSolver::Banded))
+        });
+        g.bench_function("banded-90", |b| {
+            b.iter(|| points[k + 1] = curve(&f90, across, FoldSolver::Banded))
+        });
+        g.bench_function("dense-90", |b| {
+            b.iter(|| points[k + 2] = curve(&f90, across, FoldSolver::Dense))
+        });
+        g.finish();
+    }
 
     let model = Scenario::load(None, &[]).unwrap().model();
     let flux = model.param(Param::Flux);
@@ -158,26 +170,32 @@ fn main() {
         "fold curve (snowball fold, obliquity 0 to 90): {} points at 360 bands, {} at 90 bands (banded), {} at 90 bands (dense)",
         points[0], points[1], points[2]
     ));
-    s.ratio(
-        "fold curve: banded at 360 bands vs dense at 90 bands",
-        &["fold_curve", "banded-360"],
-        &["fold_curve", "dense-90"],
-    );
-    s.ratio(
-        "fold curve at 90 bands: banded vs dense",
-        &["fold_curve", "banded-90"],
-        &["fold_curve", "dense-90"],
-    );
-    s.scaling(
-        "fold curve, banded, 360 bands",
-        &["fold_curve", "banded-360"],
-        &["fold_curve", "banded-90"],
-    );
+    s.note(format!(
+        "fold curve in CO2 (140 to 560 ppm): {} points at 360 bands, {} at 90 bands (banded), {} at 90 bands (dense)",
+        points[3], points[4], points[5]
+    ));
+    for (group, what) in [("fold_curve", "obliquity"), ("fold_curve_co2", "CO2")] {
+        s.ratio(
+            &format!("fold curve in {what}: banded at 360 bands vs dense at 90 bands"),
+            &[group, "banded-360"],
+            &[group, "dense-90"],
+        );
+        s.ratio(
+            &format!("fold curve in {what} at 90 bands: banded vs dense"),
+            &[group, "banded-90"],
+            &[group, "dense-90"],
+        );
+        s.scaling(
+            &format!("fold curve in {what}, banded, 360 bands"),
+            &[group, "banded-360"],
+            &[group, "banded-90"],
+        );
+    }
     if let Some(t90) = s.time(&["fold_curve", "dense-90"]) {
         let estimate = t90 * 64.0;
         if estimate < 60.0 {
             let t = std::time::Instant::now();
-            let n = curve(&f360, FoldSolver::Dense);
+            let n = curve(&f360, Param::Obliquity, FoldSolver::Dense);
             s.note(format!(
                 "fold curve, dense, 360 bands, timed once: {} ({n} points)",
                 secs(t.elapsed().as_secs_f64())

@@ -87,6 +87,9 @@ pub struct FoldCurveProblem {
     newton: BorderedTridiagonal,
     newton_off: usize,
     jac_h: Tridiagonal,
+    /// J of the last Newton factorisation, for `jac_mul` (self.jac is
+    /// overwritten by the residuals of `d_param`).
+    jac_n: Tridiagonal,
     v: Vec<f64>,
     w: Vec<f64>,
     fp: Vec<f64>,
@@ -141,6 +144,7 @@ impl FoldCurveProblem {
             border: BorderedTridiagonal::new(n),
             newton: BorderedTridiagonal::new(n),
             newton_off: 0,
+            jac_n: jac_h.clone(),
             jac_h,
             v: vec![0.0; n],
             w: vec![0.0; n],
@@ -338,6 +342,7 @@ impl FoldCurveProblem {
     }
 
     fn factor_banded(&mut self) -> Result<(), Singular> {
+        self.jac_n.clone_from(&self.jac);
         let off = self.newton.load(&self.jac, 1);
         self.newton_off = off;
         let sigma = self.sigma;
@@ -422,7 +427,7 @@ impl Problem for FoldCurveProblem {
             }
             return;
         }
-        self.jac.mul(&v[..n], &mut y[..n]);
+        self.jac_n.mul(&v[..n], &mut y[..n]);
         let s = self.sigma * v[n];
         for (y, fp) in y[..n].iter_mut().zip(&self.fp) {
             *y += fp * s;
