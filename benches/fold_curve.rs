@@ -10,16 +10,13 @@
 //! threads) with and without fold curves. The summary prints the ratios.
 mod common;
 
-use common::{Summary, secs};
+use common::{Summary, default_map_spec, map_slices, secs};
 use criterion::Criterion;
 use icefold::analysis::branches::{TraceOptions, trace_subgrid};
 use icefold::analysis::foldcurve::{FoldSolver, trace_fold_curve_with};
-use icefold::analysis::sweep::{
-    MapSpec, Slice, compute_slice, continue_boundaries, join_boundaries,
-};
+use icefold::analysis::sweep::{MapSpec, continue_boundaries, join_boundaries};
 use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
-use rayon::prelude::*;
 
 /// The default scenario on `bands` bands at obliquity 23, its snowball
 /// fold (state, flux) and the flux range of the default map.
@@ -80,21 +77,7 @@ fn curve(fold: &(Model, Vec<f64>, f64, (f64, f64)), across: Param, solver: FoldS
 /// The default map's slices (as `icefold map` computes them) and, with
 /// `fold_curves`, the boundaries continued in both parameters.
 fn map(model: &Model, spec: &MapSpec, fold_curves: bool) -> usize {
-    let slices: Vec<Slice> = (0..spec.count)
-        .into_par_iter()
-        .map(|j| {
-            compute_slice(
-                model,
-                spec,
-                Param::Obliquity,
-                Param::Flux,
-                j,
-                30.0,
-                -60.0,
-                1e-10,
-            )
-        })
-        .collect();
+    let slices = map_slices(model, spec);
     let bounds = join_boundaries(&slices);
     let mut n = bounds.len();
     if fold_curves {
@@ -138,18 +121,7 @@ fn main() {
     }
 
     let model = Scenario::load(None, &[]).unwrap().model();
-    let flux = model.param(Param::Flux);
-    let spec = MapSpec {
-        across: "orbit.obliquity".into(),
-        across_from: 0.0,
-        across_to: 90.0,
-        count: 91,
-        vary: "orbit.flux".into(),
-        vary_from: 0.8 * flux,
-        vary_to: 1.15 * flux,
-        cells: 200,
-        fold_curves: false,
-    };
+    let spec = default_map_spec(&model);
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(2)
         .build()
