@@ -103,6 +103,13 @@ pub struct FoldCurveProblem {
     dminus: Vec<f64>,
     jacobians: Cell<u64>,
     factors: u64,
+    /// The model again, for the differences in the across parameter.
+    model_h: Model,
+    /// H, X and a of the last factorisation.
+    last_h: Vec<f64>,
+    last_x: Vec<f64>,
+    last_a: f64,
+    last_valid: bool,
 }
 
 fn unit(v: &mut [f64]) {
@@ -128,6 +135,7 @@ impl FoldCurveProblem {
         let jac = model.new_jacobian();
         let jac_h = model.new_jacobian();
         let dense = solver == FoldSolver::Dense;
+        let model_h = model.clone();
         let mut fc = FoldCurveProblem {
             model,
             vary,
@@ -159,6 +167,11 @@ impl FoldCurveProblem {
             dminus: vec![0.0; n + 1],
             jacobians: Cell::new(0),
             factors: 0,
+            model_h,
+            last_h: vec![0.0; n + 1],
+            last_x: vec![0.0; n + 1],
+            last_a: f64::NAN,
+            last_valid: false,
         };
         // null vectors by one step of inverse iteration from the fold
         fc.model.set_param(vary, p);
@@ -191,8 +204,10 @@ impl FoldCurveProblem {
         }
     }
 
-    /// b = w, c = v (normalised) from the last evaluation.
+    /// b = w, c = v (normalised) from the last evaluation (g changes with
+    /// them, so H of the last factorisation no longer serves `d_param`).
     fn refresh_borders(&mut self) {
+        self.last_valid = false;
         self.c.copy_from_slice(&self.v);
         self.b.copy_from_slice(&self.w);
         unit(&mut self.c);
@@ -376,8 +391,13 @@ impl Problem for FoldCurveProblem {
         let p = self.vary_value(x);
         self.factors += 1;
         self.lu = None;
+        self.last_valid = false;
         let g = self.eval(u, p, &mut out[..n]).ok_or(Singular { row: n })?;
         out[n] = g;
+        self.last_h.copy_from_slice(out);
+        self.last_x.copy_from_slice(x);
+        self.last_a = self.model.param(self.across);
+        self.last_valid = true;
         self.model
             .d_residual_d_param(self.vary, u, &mut self.fp, &mut self.s1);
         // ∂g/∂u = -wᵀ (∂J/∂u) v, ∂g/∂s = -σ wᵀ (∂J/∂p) v
@@ -435,20 +455,32 @@ impl Problem for FoldCurveProblem {
         y[n] = self.gu.iter().zip(&v[..n]).map(|(a, b)| a * b).sum::<f64>() + self.gp * v[n];
     }
     fn d_param(&mut self, x: &[f64], out: &mut [f64]) {
+        // ∂H/∂a by differences in a on a second copy of the model, so that
+        // the model at a is not rebuilt (a change of an insolation
+        // parameter rebuilds the insolation table): one-sided from H of the
+        // last factorisation where that was at (x, a), as the tracer asks
+        // right after factoring; central otherwise
         let n = x.len() - 1;
         let a0 = self.model.param(self.across);
         let h = 1e-6 * a0.abs().max(1.0);
-        // out holds the plus side, self.dminus the minus side
-        let mut minus = std::mem::take(&mut self.dminus);
+        let cached = self.last_valid && self.last_a == a0 && self.last_x[..] == x[..];
+        std::mem::swap(&mut self.model, &mut self.model_h);
         self.model.set_param(self.across, a0 + h);
         self.residual(x, out);
-        self.model.set_param(self.across, a0 - h);
-        self.residual(x, &mut minus);
-        self.model.set_param(self.across, a0);
-        for i in 0..=n {
-            out[i] = (out[i] - minus[i]) / (2.0 * h);
+        if cached {
+            for i in 0..=n {
+                out[i] = (out[i] - self.last_h[i]) / h;
+            }
+        } else {
+            let mut minus = std::mem::take(&mut self.dminus);
+            self.model.set_param(self.across, a0 - h);
+            self.residual(x, &mut minus);
+            for i in 0..=n {
+                out[i] = (out[i] - minus[i]) / (2.0 * h);
+            }
+            self.dminus = minus;
         }
-        self.dminus = minus;
+        std::mem::swap(&mut self.model, &mut self.model_h);
     }
     fn unstable_modes(&mut self, x: &[f64]) -> usize {
         // called once per accepted point: refresh the bordering vectors
