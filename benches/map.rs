@@ -12,32 +12,14 @@
 //! the brute-force group alone takes several minutes.
 mod common;
 
-use common::Summary;
+use common::{Summary, default_map_spec, map_slices};
 use criterion::Criterion;
 use icefold::analysis::branches::{TraceOptions, trace_subgrid};
-use icefold::analysis::sweep::{MapSpec, Slice, compute_slice, reduce};
+use icefold::analysis::sweep::{MapSpec, Slice, reduce};
 use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
 use icefold::numerics::newton::{Workspace, spin_up};
 use rayon::prelude::*;
-
-fn slices(model: &Model, spec: &MapSpec) -> Vec<Slice> {
-    (0..spec.count)
-        .into_par_iter()
-        .map(|j| {
-            compute_slice(
-                model,
-                spec,
-                Param::Obliquity,
-                Param::Flux,
-                j,
-                30.0,
-                -60.0,
-                1e-10,
-            )
-        })
-        .collect()
-}
 
 /// The map as the `map` command drives it: `threads` workers, slices handed
 /// on in slice order with at most 4 per thread finished ahead
@@ -50,7 +32,7 @@ fn slices_ordered(model: &Model, spec: &MapSpec, threads: usize) -> Vec<Slice> {
         threads,
         4 * threads,
         |&j| {
-            Some(compute_slice(
+            Some(icefold::analysis::sweep::compute_slice(
                 model,
                 spec,
                 Param::Obliquity,
@@ -130,19 +112,7 @@ fn main() {
     let s = Summary::new("map");
     let mut c = Criterion::default().without_plots().configure_from_args();
     let model = Scenario::load(None, &[]).unwrap().model();
-    let flux = model.param(Param::Flux);
-    let spec = MapSpec {
-        across: "orbit.obliquity".into(),
-        across_from: 0.0,
-        across_to: 90.0,
-        count: 91,
-        vary: "orbit.flux".into(),
-        vary_from: 0.8 * flux,
-        vary_to: 1.15 * flux,
-        cells: 200,
-        fold_curves: false,
-        more: Vec::new(),
-    };
+    let spec = default_map_spec(&model);
     let pool = |threads: usize| {
         rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
@@ -157,7 +127,7 @@ fn main() {
         let p = pool(threads);
         let out = &mut results[threads - 1];
         g.bench_function(format!("threads={threads}"), |b| {
-            b.iter(|| *out = Some(p.install(|| slices(&model, &spec))))
+            b.iter(|| *out = Some(p.install(|| map_slices(&model, &spec))))
         });
     }
     let mut ordered = None;

@@ -53,6 +53,9 @@ fn threads_and_shards_give_identical_bytes() {
     // source): a corner fold's jump looks past the corner, not at it
     let b = std::fs::read_to_string(d1.join("boundaries.csv")).unwrap();
     assert!(!b.contains("ice-free -> ice-free"), "{b}");
+    // fold curves are on by default for annual-mean maps, so the bytes
+    // compared below include them
+    assert!(b.contains(",fold-continuation,"), "{b}");
     run_map(&s, &["--shard", "0/3"]);
     run_map(&s, &["--shard", "2/3"]);
     // an incomplete merge is refused and writes nothing
@@ -311,6 +314,49 @@ fn bad_map_input_exits_2_and_writes_nothing() {
         assert_eq!(stderr.trim().lines().count(), 1, "{args:?}: {stderr}");
         assert!(!d.exists(), "{args:?} wrote output");
     }
+}
+
+/// Fold curves are the default of annual-mean maps (our requirement, issue
+/// 14): `--no-fold-curves` leaves only the slice-joined boundaries and
+/// writes `--no-fold-curves` into the reproducing command, `--fold-curves`
+/// is still accepted and gives the default's outputs, and both at once are
+/// refused with exit 2 and nothing written.
+#[test]
+fn fold_curves_are_the_default() {
+    let (on, off, explicit, both) = (
+        temp_dir("fc-on"),
+        temp_dir("fc-off"),
+        temp_dir("fc-explicit"),
+        temp_dir("fc-both"),
+    );
+    run_map(&on, &[]);
+    run_map(&off, &["--no-fold-curves"]);
+    run_map(&explicit, &["--fold-curves"]);
+    let read = |d: &Path, f: &str| std::fs::read_to_string(d.join(f)).unwrap();
+    assert!(read(&on, "boundaries.csv").contains(",fold-continuation,"));
+    let b = read(&off, "boundaries.csv");
+    assert!(
+        !b.contains("fold-continuation") && b.contains(",slices,"),
+        "{b}"
+    );
+    assert!(read(&off, "summary.json").contains("--no-fold-curves"));
+    // (summary.json records the command line as typed)
+    for f in FILES.iter().filter(|f| **f != "summary.json") {
+        let bytes = |d: &Path| std::fs::read(d.join(f)).unwrap();
+        assert_eq!(bytes(&on), bytes(&explicit), "{f}");
+    }
+    let (code, _, stderr) = icefold(&[
+        "map",
+        SCEN,
+        "--fold-curves",
+        "--no-fold-curves",
+        "--quiet",
+        "--out",
+        both.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
+    assert!(!both.exists());
 }
 
 /// A fold continued in two parameters (extended system, obliquity free)

@@ -150,3 +150,48 @@ fn sig(x: f64) -> String {
         format!("{x:.2}")
     }
 }
+
+/// The default map of `icefold map`: 91 obliquity slices over 0 to 90 deg,
+/// 200 cells over 0.8 to 1.15 times the scenario's flux.
+#[allow(dead_code)] // not every bench binary maps
+pub fn default_map_spec(model: &icefold::model::Model) -> icefold::analysis::sweep::MapSpec {
+    let flux = model.param(icefold::model::Param::Flux);
+    icefold::analysis::sweep::MapSpec {
+        across: "orbit.obliquity".into(),
+        across_from: 0.0,
+        across_to: 90.0,
+        count: 91,
+        vary: "orbit.flux".into(),
+        vary_from: 0.8 * flux,
+        vary_to: 1.15 * flux,
+        cells: 200,
+        fold_curves: false,
+        more: Vec::new(),
+    }
+}
+
+/// The slices of an obliquity-by-flux map as `icefold map` computes them
+/// (in parallel on the current rayon pool).
+#[allow(dead_code)] // not every bench binary maps
+pub fn map_slices(
+    model: &icefold::model::Model,
+    spec: &icefold::analysis::sweep::MapSpec,
+) -> Vec<icefold::analysis::sweep::Slice> {
+    use icefold::model::Param;
+    use rayon::prelude::*;
+    (0..spec.count)
+        .into_par_iter()
+        .map(|j| {
+            icefold::analysis::sweep::compute_slice(
+                model,
+                spec,
+                Param::Obliquity,
+                Param::Flux,
+                j,
+                30.0,
+                -60.0,
+                1e-10,
+            )
+        })
+        .collect()
+}

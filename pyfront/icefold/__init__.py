@@ -348,7 +348,7 @@ def map(
     stop: Optional[float] = None,
     cells: Optional[int] = None,
     threads: Optional[int] = None,
-    fold_curves: bool = False,
+    fold_curves: Optional[bool] = None,
     figures: bool = False,
     progress: bool = False,
     **overrides: Any,
@@ -370,8 +370,11 @@ def map(
         ("cells", cells),
         ("threads", threads),
     ]
+    # None: the command's default (on for annual-mean maps, off for seasonal)
     if fold_curves:
         opts.append(("fold-curves", "true"))
+    elif fold_curves is not None:
+        opts.append(("no-fold-curves", "true"))
     text, files = _call("map", scenario, sets, overrides, opts, figures, progress)
     return _dataset(
         "map", text, files, {"map.csv": "point", "boundaries.csv": "boundary"}, grid="map.nc"

@@ -33,8 +33,8 @@ const OUT: &str = "icefold-output";
 /// The options a command takes, as (name, text) pairs in the command
 /// line's spelling without dashes (`vary`, `from`, `to`, `across`,
 /// `cells`, `threads`, `shard`, `years`, `start`, `outgassing`, `co2`,
-/// `cycle-at`; flags `fold-curves`, `hierarchy` with the text "true");
-/// `across` may come more than once (one `--across` each, in order).
+/// `cycle-at`; flags `fold-curves`, `no-fold-curves`, `hierarchy` with the text
+/// "true"); `across` may come more than once (one `--across` each, in order).
 fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
     for (k, v) in options {
         match k.as_str() {
@@ -48,13 +48,14 @@ fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
             "years" => args.years = Some(v),
             "start" => args.start = Some(PathBuf::from(v)),
             "fold-curves" => args.fold_curves = v == "true",
+            "no-fold-curves" => args.no_fold_curves = v == "true",
             "hierarchy" => args.hierarchy = v == "true",
             "outgassing" => args.outgassing = Some(v),
             "co2" => args.co2 = Some(v),
             "cycle-at" => args.cycle_at = Some(v),
             other => {
                 return Err(PyValueError::new_err(format!(
-                    "unknown option `{other}` (allowed: vary, from, to, across, cells, threads, shard, years, start, fold-curves, hierarchy, outgassing, co2, cycle-at)"
+                    "unknown option `{other}` (allowed: vary, from, to, across, cells, threads, shard, years, start, fold-curves, no-fold-curves, hierarchy, outgassing, co2, cycle-at)"
                 )));
             }
         }

@@ -114,7 +114,7 @@ impl MapSpec {
         let extra = if self.fold_curves {
             " --fold-curves"
         } else {
-            ""
+            " --no-fold-curves"
         };
         let more: String = self
             .more

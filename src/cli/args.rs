@@ -189,10 +189,13 @@ pub struct MapCmd {
     /// Compute only slices K, K+N, K+2N, ... and write a shard file.
     #[arg(long, value_name = "K/N")]
     pub shard: Option<String>,
-    /// Also continue each boundary's fold in both parameters (annual-mean
-    /// model only).
-    #[arg(long)]
+    /// Continue each boundary's fold in both parameters (annual-mean model
+    /// only; the default there, so this flag is kept for compatibility).
+    #[arg(long, conflicts_with = "no_fold_curves")]
     pub fold_curves: bool,
+    /// Do not continue the folds in two parameters (annual-mean maps).
+    #[arg(long)]
+    pub no_fold_curves: bool,
     #[command(flatten)]
     #[allow(missing_docs)]
     pub output: OutputOpts,
@@ -326,6 +329,7 @@ impl Cli {
                 threads: c.threads,
                 shard: c.shard,
                 fold_curves: c.fold_curves,
+                no_fold_curves: c.no_fold_curves,
                 ..base("map", c.scenario, c.output, line)
             },
             Command::Merge(c) => Args {

@@ -71,8 +71,11 @@ pub struct Args {
     pub shard: Option<String>,
     /// `--years N` (run).
     pub years: Option<String>,
-    /// `--fold-curves` (map).
+    /// `--fold-curves` (map): asked for explicitly.
     pub fold_curves: bool,
+    /// `--no-fold-curves` (map). Fold curves are on for annual-mean maps
+    /// unless this is set, off for seasonal ones.
+    pub no_fold_curves: bool,
     /// `--hierarchy` (trace).
     pub hierarchy: bool,
     /// `--figures`: which figure files to render (none: tables and

@@ -292,7 +292,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         vary_from: v_from,
         vary_to: v_to,
         cells,
-        fold_curves: args.fold_curves,
+        fold_curves: !args.no_fold_curves && matches!(mm, MapModel::Annual(_)),
         more,
     };
     let indices: Vec<usize> = (0..spec.slices())

@@ -1,6 +1,9 @@
 //! O(n) linear algebra for tridiagonal systems: LU with partial pivoting
 //! (the classic gttrf/gttrs scheme), rank-one updates by Sherman-Morrison,
-//! and eigenvalue counts by Sturm sequences.
+//! and eigenvalue counts by Sturm sequences; bordered tridiagonal systems
+//! in [`bordered`].
+
+pub mod bordered;
 
 /// A tridiagonal matrix, optionally plus a rank-one term u vᵀ, and its
 /// pivoted LU factors. All storage is allocated once by [`Tridiagonal::new`];
@@ -129,6 +132,27 @@ impl Tridiagonal {
         }
     }
 
+    /// y = Aᵀ x (with a rank-one term, Aᵀ = Tᵀ + v uᵀ).
+    pub fn mul_transpose(&self, x: &[f64], y: &mut [f64]) {
+        let n = self.len();
+        for i in 0..n {
+            let mut s = self.diag[i] * x[i];
+            if i > 0 {
+                s += self.upper[i - 1] * x[i - 1];
+            }
+            if i + 1 < n {
+                s += self.lower[i + 1] * x[i + 1];
+            }
+            y[i] = s;
+        }
+        if let Some((u, v)) = &self.rank_one {
+            let ux: f64 = u.iter().zip(x).map(|(a, b)| a * b).sum();
+            for (y, v) in y.iter_mut().zip(v) {
+                *y += v * ux;
+            }
+        }
+    }
+
     /// LU factorisation with partial pivoting of the tridiagonal part
     /// (row interchanges create a second super-diagonal), then, if a
     /// rank-one term is present, z = T⁻¹ u for Sherman-Morrison.
@@ -138,6 +162,36 @@ impl Tridiagonal {
         if n == 0 {
             return Ok(());
         }
+        self.eliminate()?;
+        if self.d[n - 1] == 0.0 || !self.d[n - 1].is_finite() {
+            return Err(Singular { row: n - 1 });
+        }
+        for (r, d) in self.inv_d.iter_mut().zip(&self.d) {
+            *r = 1.0 / d;
+        }
+        self.factored = true;
+        if let Some((u, _)) = &self.rank_one {
+            self.z.copy_from_slice(u);
+            let mut z = std::mem::take(&mut self.z);
+            self.solve_tridiagonal(&mut z);
+            self.z = z;
+            let (_, v) = self.rank_one.as_ref().expect("checked above");
+            let vz: f64 = v.iter().zip(&self.z).map(|(a, b)| a * b).sum();
+            if (1.0 + vz).abs() < 1e-14 {
+                self.factored = false;
+                return Err(Singular { row: n });
+            }
+        }
+        Ok(())
+    }
+
+    /// The n - 1 elimination steps of [`Tridiagonal::factor`] (partial
+    /// pivoting between rows i and i + 1), leaving U's last pivot d[n-1]
+    /// unchecked and `inv_d` unset: the bordered solver
+    /// ([`bordered::BorderedTridiagonal`]) pivots that last row against its
+    /// border rows instead. n >= 1.
+    fn eliminate(&mut self) -> Result<(), Singular> {
+        let n = self.len();
         // slices of length n: the loops below run without bounds checks
         let d = &mut self.d[..n];
         let dl = &mut self.dl[..n];
@@ -173,36 +227,16 @@ impl Tridiagonal {
                 swap[i] = true;
             }
         }
-        if d[n - 1] == 0.0 || !d[n - 1].is_finite() {
-            return Err(Singular { row: n - 1 });
-        }
-        for (r, d) in self.inv_d.iter_mut().zip(&self.d) {
-            *r = 1.0 / d;
-        }
-        self.factored = true;
-        if let Some((u, _)) = &self.rank_one {
-            self.z.copy_from_slice(u);
-            let mut z = std::mem::take(&mut self.z);
-            self.solve_tridiagonal(&mut z);
-            self.z = z;
-            let (_, v) = self.rank_one.as_ref().expect("checked above");
-            let vz: f64 = v.iter().zip(&self.z).map(|(a, b)| a * b).sum();
-            if (1.0 + vz).abs() < 1e-14 {
-                self.factored = false;
-                return Err(Singular { row: n });
-            }
-        }
         Ok(())
     }
 
-    fn solve_tridiagonal(&self, b: &mut [f64]) {
+    /// L⁻¹ P b: the forward substitution of the row interchanges and unit
+    /// lower factor (the first half of a solve).
+    #[inline]
+    fn forward(&self, b: &mut [f64]) {
         let n = self.len();
-        if n == 0 {
-            return;
-        }
         let b = &mut b[..n];
-        let (dl, du, du2) = (&self.dl[..n], &self.du[..n], &self.du2[..n]);
-        let (inv_d, swap) = (&self.inv_d[..n], &self.swap[..n]);
+        let (dl, swap) = (&self.dl[..n], &self.swap[..n]);
         for i in 0..n - 1 {
             if swap[i] {
                 let temp = b[i];
@@ -212,6 +246,32 @@ impl Tridiagonal {
                 b[i + 1] -= dl[i] * b[i];
             }
         }
+    }
+
+    /// Pᵀ L⁻ᵀ b: the back substitution with Lᵀ undoing the interchanges in
+    /// reverse order (the second half of a transposed solve).
+    #[inline]
+    fn backward_transpose(&self, b: &mut [f64]) {
+        let n = self.len();
+        for i in (0..n - 1).rev() {
+            if self.swap[i] {
+                let temp = b[i + 1];
+                b[i + 1] = b[i] - self.dl[i] * temp;
+                b[i] = temp;
+            } else {
+                b[i] -= self.dl[i] * b[i + 1];
+            }
+        }
+    }
+
+    fn solve_tridiagonal(&self, b: &mut [f64]) {
+        let n = self.len();
+        if n == 0 {
+            return;
+        }
+        self.forward(b);
+        let b = &mut b[..n];
+        let (du, du2, inv_d) = (&self.du[..n], &self.du2[..n], &self.inv_d[..n]);
         b[n - 1] *= inv_d[n - 1];
         if n > 1 {
             b[n - 2] = (b[n - 2] - du[n - 2] * b[n - 1]) * inv_d[n - 2];
@@ -325,15 +385,7 @@ impl Tridiagonal {
             b[i] = (b[i] - self.du[i - 1] * b[i - 1] - self.du2[i - 2] * b[i - 2]) * self.inv_d[i];
         }
         // Lᵀ Pᵀ x = y, interchanges undone from the last one back
-        for i in (0..n - 1).rev() {
-            if self.swap[i] {
-                let temp = b[i + 1];
-                b[i + 1] = b[i] - self.dl[i] * temp;
-                b[i] = temp;
-            } else {
-                b[i] -= self.dl[i] * b[i + 1];
-            }
-        }
+        self.backward_transpose(b);
     }
 
     /// Number of eigenvalues with positive real part of D⁻¹ A, where D is a
