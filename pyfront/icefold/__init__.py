@@ -442,20 +442,36 @@ def thermostat(
     outgassing: Union[float, str],
     co2: Optional[str] = None,
     cycle_at: Optional[float] = None,
+    across: Optional[str] = None,
+    threads: Optional[int] = None,
     figures: bool = False,
     progress: bool = False,
     **overrides: Any,
 ) -> xr.Dataset:
     """The carbonate-silicate thermostat (``icefold thermostat``): for each
-    outgassing rate V (bar Gyr-1; a number or ``"FROM:TO:COUNT"``) whether
-    the planet settles (CO2 in ppm, temperature in degC, stabilities) or
-    cycles (period and time in snowball in years, CO2 and temperature
-    ranges), along ``run`` with ``outgassing_bar_per_gyr`` as coordinate;
-    one cycle's time series along ``cycle`` (``cycle_*``). ``co2`` is
-    ``--co2 FROM:TO`` (ppm), ``cycle_at`` ``--cycle-at V``."""
-    opts = [("outgassing", outgassing), ("co2", co2), ("cycle-at", cycle_at)]
+    outgassing rate V (bar Gyr-1; a number, ``"FROM:TO:COUNT"`` or
+    ``"FROM:TO:COUNT:log"``) whether the planet settles (CO2 in ppm,
+    temperature in degC, stabilities) or cycles (period and time in snowball
+    in years, CO2 and temperature ranges), along ``run`` with
+    ``outgassing_bar_per_gyr`` as coordinate; one cycle's time series along
+    ``cycle`` (``cycle_*``). ``co2`` is ``--co2 FROM:TO`` (ppm), ``cycle_at``
+    ``--cycle-at V``. With ``across="KEY=FROM:TO:COUNT"`` (``--across``) one
+    thermostat per value instead, the rows of ``thermostat_map.csv`` along
+    ``cell`` (``cell_*``: the key and every column of a single run)."""
+    opts = [
+        ("outgassing", outgassing),
+        ("co2", co2),
+        ("cycle-at", cycle_at),
+        ("across", across),
+        ("threads", threads),
+    ]
     text, files = _call("thermostat", scenario, sets, overrides, opts, figures, progress)
-    ds = _dataset("thermostat", text, files, {"thermostat.csv": "run", "cycle.csv": "cycle"})
+    ds = _dataset(
+        "thermostat",
+        text,
+        files,
+        {"thermostat.csv": "run", "cycle.csv": "cycle", "thermostat_map.csv": "cell"},
+    )
     if "outgassing_bar_per_gyr" in ds:
         ds = ds.set_coords("outgassing_bar_per_gyr")
         _keep(ds, files)

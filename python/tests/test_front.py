@@ -177,6 +177,18 @@ def test_thermostat_equals_the_command(tmp_path):
         icefold.thermostat(scenario, outgassing=-1)
 
 
+def test_thermostat_map_equals_the_command(tmp_path):
+    scenario = ROOT / "scenarios" / "outer-edge.toml"
+    rates, across = "0.1:100:7:log", "orbit.flux=1050:1250:5"
+    _, files = cli(
+        tmp_path, "thermostat", scenario, "--outgassing", rates, "--across", across
+    )
+    ds = icefold.thermostat(scenario, outgassing=rates, across=across, threads=2)
+    assert ds.sizes["cell"] == 35
+    assert_tables_equal(ds, files, "thermostat_map.csv", "cell", "cell_")
+    assert "cycles" in set(ds["cell_outcome"].values.tolist())
+
+
 def test_to_files_writes_the_files_of_the_command(tmp_path):
     _, files = cli(tmp_path, "map", "--across", "orbit.obliquity=0:30:3", "--cells", "30")
     ds = icefold.map(across="orbit.obliquity=0:30:3", cells=30, figures=True)
