@@ -12,7 +12,7 @@
 //! the brute-force group alone takes several minutes.
 mod common;
 
-use common::{Summary, default_map_spec, map_slices};
+use common::{Summary, default_map_spec, map_slice, map_slices};
 use criterion::Criterion;
 use icefold::analysis::branches::{TraceOptions, trace_subgrid};
 use icefold::analysis::sweep::{MapSpec, Slice, reduce};
@@ -31,18 +31,7 @@ fn slices_ordered(model: &Model, spec: &MapSpec, threads: usize) -> Vec<Slice> {
         &idx,
         threads,
         4 * threads,
-        |&j| {
-            Some(icefold::analysis::sweep::compute_slice(
-                model,
-                spec,
-                Param::Obliquity,
-                Param::Flux,
-                j,
-                30.0,
-                -60.0,
-                1e-10,
-            ))
-        },
+        |&j| Some(map_slice(model, spec, j)),
         |s| {
             out.push(s);
             Ok::<(), ()>(())

@@ -170,6 +170,27 @@ pub fn default_map_spec(model: &icefold::model::Model) -> icefold::analysis::swe
     }
 }
 
+/// Slice `j` of an obliquity-by-flux map as `icefold map` computes it
+/// (warm and cold starts 30 and -60 C, tolerance 1e-10).
+#[allow(dead_code)] // not every bench binary maps
+pub fn map_slice(
+    model: &icefold::model::Model,
+    spec: &icefold::analysis::sweep::MapSpec,
+    j: usize,
+) -> icefold::analysis::sweep::Slice {
+    use icefold::model::Param;
+    icefold::analysis::sweep::compute_slice(
+        model,
+        spec,
+        Param::Obliquity,
+        Param::Flux,
+        j,
+        30.0,
+        -60.0,
+        1e-10,
+    )
+}
+
 /// The slices of an obliquity-by-flux map as `icefold map` computes them
 /// (in parallel on the current rayon pool).
 #[allow(dead_code)] // not every bench binary maps
@@ -177,21 +198,9 @@ pub fn map_slices(
     model: &icefold::model::Model,
     spec: &icefold::analysis::sweep::MapSpec,
 ) -> Vec<icefold::analysis::sweep::Slice> {
-    use icefold::model::Param;
     use rayon::prelude::*;
     (0..spec.count)
         .into_par_iter()
-        .map(|j| {
-            icefold::analysis::sweep::compute_slice(
-                model,
-                spec,
-                Param::Obliquity,
-                Param::Flux,
-                j,
-                30.0,
-                -60.0,
-                1e-10,
-            )
-        })
+        .map(|j| map_slice(model, spec, j))
         .collect()
 }
