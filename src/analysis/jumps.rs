@@ -110,15 +110,16 @@ struct Integrator {
     half: Vec<f64>,
     /// The accepted states of the last run (n per step) and their times,
     /// kept so that the transition can be timed against the target found
-    /// at the end without integrating again; at most `KEEP_STEPS` steps.
+    /// at the end without integrating again; at most `KEEP_VALUES` numbers.
     path: Vec<f64>,
     path_times: Vec<f64>,
     path_complete: bool,
 }
 
-/// Steps whose states a run keeps for timing (beyond it the timing run
-/// integrates again: the same steps, bit for bit).
-const KEEP_STEPS: usize = 20_000;
+/// Numbers (states times bands) a run keeps for timing, 32 MiB: beyond it
+/// the timing run integrates again (the same steps, bit for bit), so memory
+/// stays bounded on any grid.
+const KEEP_VALUES: usize = 4 << 20;
 
 /// Progress of one integration.
 struct Run {
@@ -293,7 +294,7 @@ impl Integrator {
                     timer.step(t0, dt, t, &mut run.crossings);
                 }
                 if self.path_complete {
-                    if self.path_times.len() < KEEP_STEPS {
+                    if self.path.len() + t.len() <= KEEP_VALUES {
                         self.path.extend_from_slice(t);
                         self.path_times.push(dt);
                     } else {
@@ -728,5 +729,33 @@ mod tests {
         let nt = f.point.tu.iter().map(|a| a * a).sum::<f64>().sqrt();
         let cos = (dot / (nv * nt)).abs();
         assert!(1.0 - cos < 1e-6, "cos = {cos}");
+    }
+
+    /// The transition timed from the path a run kept equals, bit for bit,
+    /// the timing run that integrates again (the fallback past
+    /// `KEEP_VALUES`): the same steps (common practice, no source).
+    #[test]
+    fn kept_path_times_as_integrating_again() {
+        use super::{Integrator, JumpOptions, max_diff};
+        let mut m = Scenario::parse(DEFAULT_SCENARIO, DEFAULT_NAME, &[])
+            .unwrap()
+            .model();
+        m.set_param(Param::Flux, 1300.0);
+        let opts = JumpOptions::default();
+        let start = vec![-5.0; m.len()];
+        let mut integ = Integrator::new(&m);
+        let mut t = start.clone();
+        let first = integ.run(&m, &mut t, &opts, None).unwrap();
+        assert!(first.steps > 10, "{} steps", first.steps);
+        assert!(integ.path_complete);
+        let d0 = max_diff(&start, &t);
+        let kept = integ.time_path(&start, &t, d0).unwrap();
+        let mut again = start.clone();
+        let timed = integ.run(&m, &mut again, &opts, Some((&t, d0))).unwrap();
+        assert_eq!(timed.steps, first.steps);
+        assert_eq!(kept, timed.crossings);
+        assert!(kept[0].is_some() && kept[1].is_some());
+        // a run with a target keeps no path
+        assert!(!integ.path_complete && integ.time_path(&start, &t, d0).is_none());
     }
 }
