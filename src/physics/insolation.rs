@@ -184,7 +184,8 @@ impl Insolation {
     ///
     /// S̄(φ) = S0 / (2π² sqrt(1 - e²)) ∫_0^{2π} [h0 sin φ sin δ + cos φ cos δ sin h0] dλ,
     ///
-    /// independent of the perihelion and the same in both hemispheres.
+    /// independent of the perihelion and the same in both hemispheres (it is
+    /// evaluated at |x|, so exactly the same).
     /// The integrand depends on λ only through sin λ, so the integral is twice
     /// the one over -π/2..π/2; it is split where polar day or night begins
     /// (|sin δ| = cos φ, i.e. |sin λ| = cos φ / sin ε), and each piece is
@@ -198,6 +199,9 @@ impl Insolation {
                 o.flux / 4.0 * clipped_sine_mean(1.0 + s2 / 3.0 - s2 * x * x, s1 * x)
             }
             InsolationLaw::Orbital => {
+                // the same in both hemispheres: evaluated at |x|, so that it
+                // is exactly the same
+                let x = x.abs();
                 let sin_eps = o.obliquity.sin().abs();
                 let cos_phi = (1.0 - x * x).max(0.0).sqrt();
                 let mut breaks = [-FRAC_PI_2, 0.0, 0.0, FRAC_PI_2];
