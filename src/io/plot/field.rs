@@ -4,7 +4,7 @@
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::axis::Axis;
+use super::axis::{Axis, wants_log};
 use super::chart::{Stroke, Ticked, build_chart, draw_frame, draw_halo_line, tick_label};
 use super::check::{cell_edges, check_finite, check_len, check_polyline, edge_range, min_max};
 use super::colour::seq;
@@ -35,7 +35,9 @@ struct FieldPaint<'a> {
 /// strictly monotone points. Overlay polylines (e.g. the ice edge through the
 /// year) are drawn black on a white halo and named `overlay_label` in a key
 /// under the colour bar (no key when it is empty); empty polylines are
-/// ignored. Titles should follow the unit style of [`super::labels`].
+/// ignored. Titles should follow the unit style of [`super::labels`]. A
+/// positive y grid spanning more than a factor of 20 is drawn on a log axis,
+/// its cells split halfway in log10 y.
 ///
 /// Errors: too few grid points, non-monotone axes, wrong `values` length, or
 /// any non-finite value (named).
@@ -53,7 +55,17 @@ pub fn field_figure(
     overlay_label: &str,
 ) -> Result<Figure, ExportError> {
     let xe = cell_edges("field x coordinate", xs)?;
-    let ye = cell_edges("field y coordinate", ys)?;
+    // y on a log axis where its values span more than the factor of
+    // [`wants_log`] (e.g. outgassing rates over decades): the cells then
+    // split halfway in log10 y, and `ye` holds axis coordinates (log10)
+    let (y_lo, y_hi) = min_max(ys.iter().copied()).unwrap_or((0.0, 1.0));
+    let y_log = wants_log("", y_lo, y_hi);
+    let ye = if y_log {
+        let logs: Vec<f64> = ys.iter().map(|y| y.log10()).collect();
+        cell_edges("field y coordinate", &logs)?
+    } else {
+        cell_edges("field y coordinate", ys)?
+    };
     check_len("field values", values.len(), xs.len() * ys.len())?;
     check_finite(&format!("field values ({colour_label})"), values)?;
     for (k, line) in overlay.iter().enumerate() {
@@ -66,7 +78,11 @@ pub fn field_figure(
         &FieldPaint {
             title,
             x: Axis::linear(x0, x1, x_label),
-            y: Axis::linear(y0, y1, y_label),
+            y: if y_log {
+                Axis::scaled(y_label.into(), 10f64.powf(y0), 10f64.powf(y1), 0.0, true)
+            } else {
+                Axis::linear(y0, y1, y_label)
+            },
             colour: Axis::linear(vmin, vmax, colour_label),
             overlay_label,
             xe,
@@ -152,7 +168,8 @@ impl Paint for FieldPaint<'_> {
         }
         chart.draw_series(rects).pe()?;
         for line in self.overlay.iter().filter(|l| !l.is_empty()) {
-            draw_halo_line(&mut chart, line, Stroke::Solid)?;
+            let line: Vec<(f64, f64)> = line.iter().map(|&(x, y)| (x, self.y.c(y))).collect();
+            draw_halo_line(&mut chart, &line, Stroke::Solid)?;
         }
         draw_frame(&mut chart)?;
         self.colour_bar(&bar)?;
@@ -261,5 +278,29 @@ mod tests {
             )
             .unwrap(),
         );
+    }
+
+    /// A y grid spanning decades gets a log axis with decade ticks; a
+    /// narrow one stays linear (the rule of `wants_log`: common practice,
+    /// no source).
+    #[test]
+    fn wide_positive_y_gets_a_log_axis() {
+        use crate::io::plot::render::svg_texts;
+        let xs = [0.0, 1.0, 2.0];
+        let wide = [0.1, 1.0, 10.0, 100.0];
+        let v = vec![0.5; xs.len() * wide.len()];
+        let f = field_figure(Formats::Svg, "t", "x", "y", "c", &xs, &wide, &v, &[], "").unwrap();
+        assert!(f.png.is_empty());
+        let texts = svg_texts(&f.svg);
+        for tick in ["0.1", "1", "10", "100"] {
+            assert!(texts.iter().any(|t| t == tick), "{tick} in {texts:?}");
+        }
+        let narrow = [1.0, 2.0, 3.0, 4.0];
+        let texts = svg_texts(
+            &field_figure(Formats::Svg, "t", "x", "y", "c", &xs, &narrow, &v, &[], "")
+                .unwrap()
+                .svg,
+        );
+        assert!(!texts.iter().any(|t| t == "100"), "{texts:?}");
     }
 }
