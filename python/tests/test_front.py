@@ -166,6 +166,23 @@ def test_solve_and_map_of_both_scenarios(tmp_path, scenario):
     assert_tables_equal(ds, files, "map.csv", "point", "point_")
 
 
+def test_map_over_two_keys_equals_the_command(tmp_path):
+    # common practice, no source: a map over several --across keys returns
+    # the command's rows and its map.nc with one dimension per key
+    keys = ["orbit.obliquity=0:40:3", "radiation.co2_ppm=280:560:2"]
+    args = [a for k in keys for a in ("--across", k)]
+    _, files = cli(tmp_path, "map", *args, "--cells", "30", "--set", "grid.bands=36")
+    ds = icefold.map(across=keys, cells=30, **{"grid.bands": 36})
+    assert_tables_equal(ds, files, "map.csv", "point", "point_")
+    assert_tables_equal(ds, files, "boundaries.csv", "boundary", "boundary_")
+    nc = tmp_path / "map2.nc"
+    nc.write_bytes(files["map.nc"])
+    theirs = xr.open_dataset(nc, engine="scipy").load()
+    assert {"orbit_obliquity", "radiation_co2_ppm"} <= set(theirs.dims)
+    for v in theirs.data_vars:
+        xr.testing.assert_identical(ds[v].drop_attrs(), theirs[v].drop_attrs())
+
+
 def test_thermostat_equals_the_command(tmp_path):
     scenario = ROOT / "scenarios" / "outer-edge.toml"
     _, files = cli(tmp_path, "thermostat", scenario, "--outgassing", "0.1:1:4")
