@@ -136,9 +136,13 @@ def _call(
     sets: Optional[Mapping[str, Any]],
     overrides: Mapping[str, Any],
     options: Iterable[Tuple[str, Any]] = (),
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     progress: bool = False,
 ) -> Tuple[str, Dict[str, bytes]]:
+    # figures: True (all), False (none) or the name of `--figures`
+    if isinstance(figures, str):
+        options = [*options, ("figures", figures)]
+        figures = True
     opts = [(k, _value(v) if not isinstance(v, str) else v) for k, v in options if v is not None]
     opts = [(k, v.strip('"') if isinstance(v, str) else v) for k, v in opts]
     if isinstance(scenario, Scenario):
@@ -294,7 +298,7 @@ def solve(
     scenario: PathLike = None,
     sets: Optional[Mapping[str, Any]] = None,
     *,
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     **overrides: Any,
 ) -> xr.Dataset:
     """Every equilibrium from the standard starts (``icefold solve``):
@@ -311,7 +315,7 @@ def trace(
     start: Optional[float] = None,
     stop: Optional[float] = None,
     hierarchy: bool = False,
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     progress: bool = False,
     **overrides: Any,
 ) -> xr.Dataset:
@@ -349,7 +353,7 @@ def map(
     cells: Optional[int] = None,
     threads: Optional[int] = None,
     fold_curves: Optional[bool] = None,
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     progress: bool = False,
     **overrides: Any,
 ) -> xr.Dataset:
@@ -385,7 +389,7 @@ def periodic(
     scenario: PathLike = None,
     sets: Optional[Mapping[str, Any]] = None,
     *,
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     **overrides: Any,
 ) -> xr.Dataset:
     """Every periodic seasonal climate (``icefold periodic``): the
@@ -424,7 +428,7 @@ def sun(
     scenario: PathLike = None,
     sets: Optional[Mapping[str, Any]] = None,
     *,
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     **overrides: Any,
 ) -> xr.Dataset:
     """Daily-mean insolation over the year (``icefold sun``): along
@@ -444,7 +448,7 @@ def thermostat(
     cycle_at: Optional[float] = None,
     across: Optional[str] = None,
     threads: Optional[int] = None,
-    figures: bool = False,
+    figures: Union[bool, str] = False,
     progress: bool = False,
     **overrides: Any,
 ) -> xr.Dataset:

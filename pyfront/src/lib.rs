@@ -33,8 +33,9 @@ const OUT: &str = "icefold-output";
 /// The options a command takes, as (name, text) pairs in the command
 /// line's spelling without dashes (`vary`, `from`, `to`, `across`,
 /// `cells`, `threads`, `shard`, `years`, `start`, `outgassing`, `co2`,
-/// `cycle-at`; flags `fold-curves`, `no-fold-curves`, `hierarchy` with the text
-/// "true"); `across` may come more than once (one `--across` each, in order).
+/// `cycle-at`, `figures` (`none`, `svg`, `png`, `all`); flags `fold-curves`,
+/// `no-fold-curves`, `hierarchy` with the text "true"); `across` may come
+/// more than once (one `--across` each, in order).
 fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
     for (k, v) in options {
         match k.as_str() {
@@ -53,9 +54,17 @@ fn apply(args: &mut Args, options: Vec<(String, String)>) -> PyResult<()> {
             "outgassing" => args.outgassing = Some(v),
             "co2" => args.co2 = Some(v),
             "cycle-at" => args.cycle_at = Some(v),
+            "figures" => {
+                args.figures = icefold::io::plot::Formats::from_name(&v).ok_or_else(|| {
+                    PyValueError::new_err(format!(
+                        "figures = `{v}` is not a figure choice (allowed: True, False, {})",
+                        icefold::io::plot::Formats::NAMES.join(", ")
+                    ))
+                })?
+            }
             other => {
                 return Err(PyValueError::new_err(format!(
-                    "unknown option `{other}` (allowed: vary, from, to, across, cells, threads, shard, years, start, fold-curves, no-fold-curves, hierarchy, outgassing, co2, cycle-at)"
+                    "unknown option `{other}` (allowed: vary, from, to, across, cells, threads, shard, years, start, fold-curves, no-fold-curves, hierarchy, outgassing, co2, cycle-at, figures)"
                 )));
             }
         }
@@ -113,16 +122,18 @@ fn run(
 ) -> PyResult<(String, Vec<(String, Py<PyBytes>)>)> {
     let capture = Arc::new(Mutex::new(Vec::new()));
     let cancel = Arc::new(AtomicBool::new(false));
+    let base = command_args(command, scenario, sets, options)?;
     let args = Args {
         quiet,
+        // all figures, or those of a `figures` option; none unless asked
         figures: if figures {
-            icefold::io::plot::Formats::All
+            base.figures
         } else {
             icefold::io::plot::Formats::None
         },
         capture: Some(capture.clone()),
         cancel: Some(cancel.clone()),
-        ..command_args(command, scenario, sets, options)?
+        ..base
     };
     // the worker hands its result over a channel, so the call returns the
     // moment it is done; between waits the caller looks for Ctrl-C

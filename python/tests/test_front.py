@@ -183,6 +183,20 @@ def test_map_over_two_keys_equals_the_command(tmp_path):
         xr.testing.assert_identical(ds[v].drop_attrs(), theirs[v].drop_attrs())
 
 
+def test_figures_by_format(tmp_path):
+    # common practice, no source: figures="svg" draws the SVG only, the same
+    # bytes as the command's; a bad choice names the allowed ones
+    _, files = cli(tmp_path, "trace", "--figures", "svg")
+    ds = icefold.trace(figures="svg")
+    out = tmp_path / "svg-only"
+    icefold.to_files(ds, out)
+    names = {p.name for p in out.iterdir()}
+    assert "hysteresis.svg" in names and "hysteresis.png" not in names
+    assert (out / "hysteresis.svg").read_bytes() == files["hysteresis.svg"]
+    with pytest.raises(ValueError, match="none, svg, png, all"):
+        icefold.trace(figures="gif")
+
+
 def test_thermostat_equals_the_command(tmp_path):
     scenario = ROOT / "scenarios" / "outer-edge.toml"
     _, files = cli(tmp_path, "thermostat", scenario, "--outgassing", "0.1:1:4")
