@@ -9,7 +9,7 @@
 
 use super::context::{Args, CliError, out_dir, provenance, written_list};
 use super::progress::Progress;
-use super::thermostat::{RUN_COLUMNS, run_row, slow_runs};
+use super::thermostat::{RUN_COLUMNS, run_row, settled, slow_runs};
 use crate::analysis::thermostat::{Outcome, SlowAnalysis};
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::plot;
@@ -27,11 +27,9 @@ pub fn snowball_share(a: &SlowAnalysis) -> Option<f64> {
     match &a.outcome {
         Outcome::Cycles(c) => Some(c.snowball_yr / c.period_yr),
         Outcome::LeavesRange(_) => None,
-        Outcome::Settles(idx) => idx
-            .iter()
-            .map(|&i| &a.equilibria[i])
-            .max_by(|x, y| x.global_mean_c.total_cmp(&y.global_mean_c))
-            .map(|e| if e.state == State::Snowball { 1.0 } else { 0.0 }),
+        Outcome::Settles(_) => {
+            settled(a).map(|e| if e.state == State::Snowball { 1.0 } else { 0.0 })
+        }
     }
 }
 
@@ -87,6 +85,9 @@ pub(super) fn cmd_thermostat_map(
     columns.extend(RUN_COLUMNS);
     let mut table = Table::new(&columns);
     let mut per_slice = Vec::with_capacity(count);
+    // per slice: how many rates settle, cycle, leave the range; the rates
+    // that cycle (for summary.json and the report)
+    let mut tallies: Vec<([usize; 3], Vec<f64>)> = Vec::with_capacity(count);
     let mut share = Vec::with_capacity(count * values.len());
     for (a, runs) in grid.iter().zip(&slices) {
         let mut counts = [0usize; 3];
@@ -109,8 +110,9 @@ pub(super) fn cmd_thermostat_map(
             "settles": counts[0],
             "cycles": counts[1],
             "leaves_range": counts[2],
-            "cycling_outgassing_bar_per_gyr": cycling,
+            "cycling_outgassing_bar_per_gyr": &cycling,
         }));
+        tallies.push((counts, cycling));
     }
     // the figure's field: rows are outgassing rates, columns across values
     let mut drawable = true;
@@ -173,29 +175,20 @@ pub(super) fn cmd_thermostat_map(
         co2.0,
         co2.1
     );
-    for (a, runs) in grid.iter().zip(&slices) {
-        let cyc: Vec<f64> = runs
-            .iter()
-            .filter(|r| matches!(r.outcome, Outcome::Cycles(_)))
-            .map(|r| r.outgassing)
-            .collect();
-        let leaves = runs
-            .iter()
-            .filter(|r| matches!(r.outcome, Outcome::LeavesRange(_)))
-            .count();
+    for (a, (counts, cyc)) in grid.iter().zip(&tallies) {
+        let (rates, leaves) = (values.len(), counts[2]);
         s += &format!(
             "  {} = {:<12} {}{}\n",
             param.key(),
             fmt_num(*a),
             match (cyc.first(), cyc.last()) {
                 (Some(lo), Some(hi)) => format!(
-                    "cycles at {} of {} rates (V {} to {} bar Gyr-1)",
+                    "cycles at {} of {rates} rates (V {} to {} bar Gyr-1)",
                     cyc.len(),
-                    runs.len(),
                     fmt_num(*lo),
                     fmt_num(*hi)
                 ),
-                _ => format!("settles at {} of {} rates", runs.len() - leaves, runs.len()),
+                _ => format!("settles at {} of {rates} rates", rates - leaves),
             },
             if leaves > 0 {
                 format!("; CO2 leaves the range at {leaves}")

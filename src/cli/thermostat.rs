@@ -173,7 +173,7 @@ fn run_json(a: &SlowAnalysis) -> serde_json::Value {
 }
 
 /// The warmest stable slow equilibrium of a settling run.
-fn settled(a: &SlowAnalysis) -> Option<&crate::analysis::thermostat::SlowEquilibrium> {
+pub(super) fn settled(a: &SlowAnalysis) -> Option<&crate::analysis::thermostat::SlowEquilibrium> {
     let Outcome::Settles(idx) = &a.outcome else {
         return None;
     };
