@@ -425,16 +425,7 @@ impl OutputSet {
     pub fn publish(self, dir: &Path) -> Result<Vec<PathBuf>, ExportError> {
         let mut files: Vec<(PathBuf, crate::io::publish::Writer<'_>)> = Vec::new();
         for (path, content) in self.files {
-            let rel = path
-                .strip_prefix(dir)
-                .map_err(|_| ExportError::Refused {
-                    what: format!(
-                        "output `{}` is not inside --out `{}`",
-                        path.display(),
-                        dir.display()
-                    ),
-                })?
-                .to_path_buf();
+            let rel = inside(&path, dir)?.to_path_buf();
             let shown = path.clone();
             let write: crate::io::publish::Writer<'_> = match content {
                 Content::Bytes(b) => {
@@ -461,17 +452,7 @@ impl OutputSet {
         self.files
             .into_iter()
             .map(|(path, content)| {
-                let rel = path
-                    .strip_prefix(dir)
-                    .map_err(|_| ExportError::Refused {
-                        what: format!(
-                            "output `{}` is not inside --out `{}`",
-                            path.display(),
-                            dir.display()
-                        ),
-                    })?
-                    .to_string_lossy()
-                    .into_owned();
+                let rel = inside(&path, dir)?.to_string_lossy().into_owned();
                 let bytes = match content {
                     Content::Bytes(b) => b,
                     Content::NetCdf(nc) => nc.to_bytes()?,
@@ -532,6 +513,18 @@ impl OutputSet {
         }
         Ok(written)
     }
+}
+
+/// `path` relative to `dir`, refused when it does not lie inside it (a
+/// staged output must be inside `--out`).
+fn inside<'a>(path: &'a Path, dir: &Path) -> Result<&'a Path, ExportError> {
+    path.strip_prefix(dir).map_err(|_| ExportError::Refused {
+        what: format!(
+            "output `{}` is not inside --out `{}`",
+            path.display(),
+            dir.display()
+        ),
+    })
 }
 
 #[cfg(test)]
