@@ -1,6 +1,8 @@
 //! Fold-curve figures (criterion, not timed tests): `cargo bench --bench
 //! fold_curve`. The snowball fold of the default scenario at obliquity 23
-//! continued over obliquity 0 to 90 (and, beside it, over CO2 140 to 560
+//! continued over obliquity 0 to 90 by the edge model (ice edges as
+//! unknowns, the curves `map` draws for the step albedo) at 90 and 360
+//! bands, and, beside it, the fold of the band model with the sub-grid edge (and, beside it, over CO2 140 to 560
 //! ppm, a parameter that is cheap to set: a change of obliquity rebuilds
 //! the insolation table) in the default map's flux range, by the
 //! banded O(n) solver at 90 and 360 bands and by the dense reference at 90
@@ -12,7 +14,8 @@ mod common;
 
 use common::{Summary, default_map_spec, map_slices, secs};
 use criterion::Criterion;
-use icefold::analysis::branches::{TraceOptions, trace_subgrid};
+use icefold::analysis::branches::{TraceOptions, trace_all, trace_subgrid};
+use icefold::analysis::edgefold::trace_edge_fold_curve;
 use icefold::analysis::foldcurve::{FoldSolver, trace_fold_curve_with};
 use icefold::analysis::sweep::{MapSpec, continue_boundaries, join_boundaries};
 use icefold::io::scenario::Scenario;
@@ -52,13 +55,63 @@ fn fold_at(bands: usize) -> (Model, Vec<f64>, f64, (f64, f64)) {
     (m, u, p, range)
 }
 
-fn curve(fold: &(Model, Vec<f64>, f64, (f64, f64)), across: Param, solver: FoldSolver) -> usize {
-    let (m, u, p, range) = fold;
-    let across_range = if across == Param::Obliquity {
+/// The snowball fold of the edge model (as `trace` and `map` find it) on
+/// `bands` bands at obliquity 23, with the default map's flux range.
+fn edge_fold_at(bands: usize) -> (Model, Vec<f64>, f64, (f64, f64)) {
+    let (m, _, _, range) = fold_at(bands);
+    let opts = TraceOptions {
+        integrate_jumps: false,
+        sensitivities: false,
+        ..TraceOptions::default()
+    };
+    let h = trace_all(
+        &m,
+        Param::Flux,
+        range.0,
+        range.1,
+        30.0,
+        -60.0,
+        &opts,
+        &mut |_| {},
+    );
+    let (u, p) = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .map(|f| (f.point.temperature.clone(), f.point.p))
+        .min_by(|a, b| a.1.total_cmp(&b.1))
+        .expect("a snowball fold");
+    (m, u, p, range)
+}
+
+fn across_range(across: Param) -> (f64, f64) {
+    if across == Param::Obliquity {
         (0.0, 90.0)
     } else {
         (140.0, 560.0)
-    };
+    }
+}
+
+/// The edge model's fold curve; returns its point count and across span.
+fn edge_curve(fold: &(Model, Vec<f64>, f64, (f64, f64)), across: Param) -> (usize, f64, f64) {
+    let (m, u, p, range) = fold;
+    let (c, _) = trace_edge_fold_curve(
+        m,
+        Param::Flux,
+        across,
+        u,
+        *p,
+        across_range(across),
+        *range,
+        1e-10,
+    )
+    .expect("a smooth fold");
+    (c.len(), c[0].0, c[c.len() - 1].0)
+}
+
+fn curve(fold: &(Model, Vec<f64>, f64, (f64, f64)), across: Param, solver: FoldSolver) -> usize {
+    let (m, u, p, range) = fold;
+    let across_range = across_range(across);
     trace_fold_curve_with(
         m,
         Param::Flux,
@@ -101,13 +154,22 @@ fn main() {
     let mut c = Criterion::default().without_plots().configure_from_args();
     let f90 = fold_at(90);
     let f360 = fold_at(360);
+    let (e90, e360) = (edge_fold_at(90), edge_fold_at(360));
     let mut points = [0usize; 6];
+    let mut edge_points = [(0usize, 0.0, 0.0); 4];
     for (group, across, k) in [
         ("fold_curve", Param::Obliquity, 0),
         ("fold_curve_co2", Param::Co2, 3),
     ] {
         let mut g = c.benchmark_group(group);
         g.sample_size(10);
+        let e = k / 3 * 2;
+        g.bench_function("edges-360", |b| {
+            b.iter(|| edge_points[e] = edge_curve(&e360, across))
+        });
+        g.bench_function("edges-90", |b| {
+            b.iter(|| edge_points[e + 1] = edge_curve(&e90, across))
+        });
         g.bench_function("banded-360", |b| {
             b.iter(|| points[k] = curve(&f360, across, FoldSolver::Banded))
         });
@@ -138,8 +200,16 @@ fn main() {
     g.finish();
     c.final_summary();
 
+    for (e, what) in [(0, "obliquity 0 to 90"), (2, "CO2 140 to 560 ppm")] {
+        for (i, bands) in [(e, 360), (e + 1, 90)] {
+            let (n, a, b) = edge_points[i];
+            s.note(format!(
+                "edge-model fold curve ({what}), {bands} bands: {n} points over {a} to {b}"
+            ));
+        }
+    }
     s.note(format!(
-        "fold curve (snowball fold, obliquity 0 to 90): {} points at 360 bands, {} at 90 bands (banded), {} at 90 bands (dense)",
+        "band-model fold curve (snowball fold, obliquity 0 to 90): {} points at 360 bands, {} at 90 bands (banded), {} at 90 bands (dense)",
         points[0], points[1], points[2]
     ));
     s.note(format!(
@@ -147,6 +217,16 @@ fn main() {
         points[3], points[4], points[5]
     ));
     for (group, what) in [("fold_curve", "obliquity"), ("fold_curve_co2", "CO2")] {
+        s.ratio(
+            &format!("fold curve in {what}, 360 bands: edge model vs band model (banded)"),
+            &[group, "edges-360"],
+            &[group, "banded-360"],
+        );
+        s.scaling(
+            &format!("fold curve in {what}, edge model, 360 bands"),
+            &[group, "edges-360"],
+            &[group, "edges-90"],
+        );
         s.ratio(
             &format!("fold curve in {what}: banded at 360 bands vs dense at 90 bands"),
             &[group, "banded-360"],

@@ -359,50 +359,22 @@ fn fold_curves_are_the_default() {
     assert!(!both.exists());
 }
 
-/// A fold continued in two parameters (extended system, obliquity free)
-/// passes through the folds that independent traces locate at the same
-/// obliquities (our requirement; the fold is the minimum of the branch in
-/// flux, Budyko 1969 / North 1975), to 1e-8 relative, where the fold is
-/// smooth (away from the kinks of the sub-grid edge).
+/// A fold continued in two parameters passes through the folds that
+/// independent traces locate at the same obliquities (our requirement; an
+/// independent computation: each slice's fold by pseudo-arclength
+/// continuation and its own refinement, the curve's by the secant on the
+/// edge family, common practice, no source). Both are folds of the model
+/// with the ice edges as unknowns, so they agree to the solver tolerance:
+/// checked to 1e-10 relative, at five obliquities over 0 to 45 deg.
 #[test]
 fn fold_curve_passes_through_slice_folds() {
-    use icefold::analysis::foldcurve::trace_fold_curve;
+    use icefold::analysis::edgefold::trace_edge_fold_curve;
     let mut m = Scenario::load(None, &[]).unwrap().model();
     m.set_param(Param::Obliquity, 18.0);
     let (lo, hi) = (1070.0, 1540.0);
-    let h = trace_all(
-        &m,
-        Param::Flux,
-        lo,
-        hi,
-        30.0,
-        -60.0,
-        &TraceOptions::default(),
-        &mut |_| {},
-    );
-    let f = h
-        .branches
-        .iter()
-        .flat_map(|b| b.folds.iter())
-        .find(|f| f.point.p < 1250.0 && f.jump_to.is_some())
-        .expect("snowball fold");
-    let curve = trace_fold_curve(
-        &m,
-        Param::Flux,
-        Param::Obliquity,
-        &f.point.temperature,
-        f.point.p,
-        (15.0, 21.0),
-        (lo, hi),
-        1e-10,
-    );
-    assert!(curve.len() >= 3, "{curve:?}");
-    let mut checked = 0;
-    for &(a, p) in curve.iter().filter(|(a, _)| *a > 15.5 && *a < 20.5).take(3) {
-        let mut m2 = m.clone();
-        m2.set_param(Param::Obliquity, a);
-        let h2 = trace_all(
-            &m2,
+    let traced = |m: &icefold::model::Model| {
+        trace_all(
+            m,
             Param::Flux,
             lo,
             hi,
@@ -410,24 +382,98 @@ fn fold_curve_passes_through_slice_folds() {
             -60.0,
             &TraceOptions::default(),
             &mut |_| {},
-        );
-        let nearest = h2
+        )
+    };
+    let h = traced(&m);
+    let f = h
+        .branches
+        .iter()
+        .flat_map(|b| b.folds.iter())
+        .find(|f| f.point.p < 1250.0 && f.jump_to.is_some())
+        .expect("snowball fold");
+    let (curve, _) = trace_edge_fold_curve(
+        &m,
+        Param::Flux,
+        Param::Obliquity,
+        &f.point.temperature,
+        f.point.p,
+        (0.0, 90.0),
+        (lo, hi),
+        1e-10,
+    )
+    .expect("a smooth fold");
+    // the whole range from obliquity 0 up to the cusp near 50 deg (where
+    // this fold meets the large-cap fold and both vanish)
+    assert!(
+        curve[0].0 == 0.0 && curve.last().unwrap().0 > 45.0,
+        "{curve:?}"
+    );
+    let mut checked = 0;
+    for &(a, p) in curve.iter().filter(|(a, _)| *a <= 45.0).step_by(5) {
+        let mut m2 = m.clone();
+        m2.set_param(Param::Obliquity, a);
+        let nearest = traced(&m2)
             .branches
             .iter()
             .flat_map(|b| b.folds.iter().map(|f| f.point.p))
             .min_by(|x, y| (x - p).abs().total_cmp(&(y - p).abs()))
             .unwrap();
-        // fold curves still solve the extended system of the sub-grid
-        // model, while slices are traced with the ice edges as unknowns: the
-        // two discretisations of the same fold differ by ~5e-6 at 90 bands
-        // (measured), so the check is to 2e-5
         assert!(
-            (nearest - p).abs() < 2e-5 * p,
+            (nearest - p).abs() < 1e-10 * p,
             "obliquity {a}: curve {p} slice {nearest}"
         );
         checked += 1;
     }
-    assert!(checked >= 2);
+    assert!(checked >= 5, "{checked}");
+}
+
+/// In `boundaries.csv` every point of a fold-continuation curve at one of
+/// the map's slice values lies on the slice-joined boundary of the same
+/// transition, to 1e-9 relative (the same fold found twice, by the slice's
+/// trace and by the curve; common practice, no source).
+#[test]
+fn continued_boundaries_meet_the_slices() {
+    let d = temp_dir("fc-meet");
+    let (code, _, stderr) = icefold(&[
+        "map",
+        "--across",
+        "orbit.obliquity=0:60:13",
+        "--cells",
+        "40",
+        "--figures",
+        "none",
+        "--quiet",
+        "--out",
+        d.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    let text = std::fs::read_to_string(d.join("boundaries.csv")).unwrap();
+    let rows: Vec<Vec<&str>> = text
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').collect())
+        .collect();
+    let num = |s: &str| s.parse::<f64>().unwrap();
+    let mut met = 0;
+    for r in rows.iter().filter(|r| r[1] == "fold-continuation") {
+        let (a, p) = (num(r[3]), num(r[4]));
+        let on_slice: Vec<f64> = rows
+            .iter()
+            .filter(|s| s[1] == "slices" && s[2] == r[2] && (num(s[3]) - a).abs() < 1e-12)
+            .map(|s| num(s[4]))
+            .collect();
+        if on_slice.is_empty() {
+            continue;
+        }
+        let gap = on_slice
+            .iter()
+            .map(|q| (q - p).abs())
+            .fold(f64::INFINITY, f64::min);
+        assert!(gap < 1e-9 * p, "{} at {a}: {p}, slices {on_slice:?}", r[2]);
+        met += 1;
+    }
+    // both continued transitions of the default scenario meet several slices
+    assert!(met >= 4, "{met}\n{text}");
 }
 
 /// A slice that fails is reported as failed, never as "no stable climate"

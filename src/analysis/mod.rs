@@ -2,7 +2,7 @@
 //! equilibria and its folds ([`branches`], and with the ice edges as
 //! unknowns [`edgetrace`]), the jump at each fold by integration in time
 //! ([`jumps`]), regime maps over two parameters ([`sweep`]), folds continued
-//! in two parameters ([`foldcurve`]), periodic climates by shooting
+//! in two parameters ([`foldcurve`], and on the edge model [`edgefold`]), periodic climates by shooting
 //! ([`periodic`]) and sampled through their year ([`cycle`]), every equilibrium of the linear step-albedo model
 //! parametrised by its ice edge ([`skeleton`]), how far each fold moves
 //! with every other parameter ([`sensitivity`]), and the carbonate-silicate
@@ -12,6 +12,7 @@
 pub mod branches;
 pub mod coupled;
 pub mod cycle;
+pub mod edgefold;
 pub mod edgetrace;
 pub mod foldcurve;
 pub mod jumps;

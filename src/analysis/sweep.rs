@@ -621,9 +621,17 @@ pub fn join_boundaries<'a>(slices: impl IntoIterator<Item = &'a Slice>) -> Vec<B
 }
 
 /// Continues, in two parameters, the fold at the start of every slice-joined
-/// transition boundary (see [`crate::analysis::foldcurve`]), skipping boundaries that
-/// an earlier continued curve already passes through. Returns curves with
-/// method "fold-continuation".
+/// transition boundary, skipping boundaries that an earlier continued curve
+/// already passes through. Returns curves with method "fold-continuation".
+///
+/// With the step albedo the slices' folds are those of the edge model
+/// (ice edges as unknowns, [`crate::analysis::edgetrace`]), and so is their
+/// curve ([`crate::analysis::edgefold`]): smooth, through the slice folds,
+/// ending at a cusp or a topology change. A fold the edge model has no
+/// smooth fold for (a corner, where an ice region appears or vanishes at a
+/// pole or the equator) gets no curve: its boundary stays the slices'.
+/// Other albedos continue the fold of the band model
+/// ([`crate::analysis::foldcurve`]).
 #[allow(clippy::too_many_arguments)]
 pub fn continue_boundaries(
     model: &Model,
@@ -682,16 +690,35 @@ pub fn continue_boundaries(
         else {
             continue;
         };
-        let pts = crate::analysis::foldcurve::trace_fold_curve(
+        let (a_range, p_range) = (
+            (spec.across_from, spec.across_to),
+            (spec.vary_from, spec.vary_to),
+        );
+        let edges = crate::analysis::edgefold::trace_edge_fold_curve(
             &m,
             vary,
             across,
             &f.point.temperature,
             f.point.p,
-            (spec.across_from, spec.across_to),
-            (spec.vary_from, spec.vary_to),
+            a_range,
+            p_range,
             tol,
         );
+        use crate::analysis::edgefold::EdgeFoldError;
+        let pts = match edges {
+            Ok((pts, _)) => pts,
+            Err(EdgeFoldError::NoFold) => continue,
+            Err(EdgeFoldError::NotCovered(_)) => crate::analysis::foldcurve::trace_fold_curve(
+                &m,
+                vary,
+                across,
+                &f.point.temperature,
+                f.point.p,
+                a_range,
+                p_range,
+                tol,
+            ),
+        };
         if pts.len() >= 2 {
             out.push(Boundary {
                 transition: b.transition.clone(),
