@@ -515,7 +515,11 @@ impl Model {
             && matches!(self.planet.transport, Transport::Relaxation { .. })
             && matches!(
                 p,
-                Param::Flux | Param::OlrB | Param::Emissivity | Param::Relaxation
+                Param::Flux
+                    | Param::Eccentricity
+                    | Param::OlrB
+                    | Param::Emissivity
+                    | Param::Relaxation
             );
         if ramp {
             self.d_residual_fd(p, t, out, scratch);
@@ -530,6 +534,16 @@ impl Model {
             Param::Flux => {
                 for i in 0..n {
                     out[i] = self.absorbed_band(i, t, None);
+                }
+            }
+            // the orbital annual mean scales as (1 - e²)^(-1/2) and depends
+            // on e in no other way (Insolation::annual_mean): ∂F/∂e =
+            // S0 e / (1 - e²) ∂F/∂S0
+            Param::Eccentricity if matches!(self.planet.insolation, InsolationLaw::Orbital) => {
+                let o = self.planet.orbit;
+                let de = o.flux * o.eccentricity / (1.0 - o.eccentricity * o.eccentricity);
+                for i in 0..n {
+                    out[i] = de * self.absorbed_band(i, t, None);
                 }
             }
             Param::Co2 => out.fill(5.35 / self.planet.co2_ppm),

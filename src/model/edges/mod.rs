@@ -623,9 +623,13 @@ impl EdgeModel {
         end_value(&self.faces, t, idx, at)
     }
 
-    /// ∂(F, g)/∂q at u where the residual is affine in q (flux, radiation.a,
-    /// radiation.b, radiation.forcing, CO2 through its forcing 5.35 ln(C/C0) (Myhre et al.
-    /// 1998), albedo.threshold); `false` for every other parameter.
+    /// ∂(F, g)/∂q at u where it is known in closed form: where the residual
+    /// is affine in q (flux, radiation.a, radiation.b, radiation.forcing,
+    /// CO2 through its forcing 5.35 ln(C/C0) (Myhre et al. 1998),
+    /// albedo.threshold), and the eccentricity of the orbital law, which
+    /// scales the annual-mean insolation by (1 - e²)^(-1/2) and nothing else
+    /// (Kepler's second law, see [`Insolation::annual_mean`]), so
+    /// ∂F/∂e = S0 e / (1 - e²) ∂F/∂S0; `false` for every other parameter.
     pub fn d_linear(&mut self, q: crate::model::Param, u: &[f64], out: &mut [f64]) -> bool {
         use crate::model::Param;
         let n = self.n;
@@ -638,10 +642,14 @@ impl EdgeModel {
             crate::physics::radiation::OlrLaw::Linear { .. }
         );
         out[n..].fill(0.0);
+        let o = self.model.planet.orbit;
+        let orbital = matches!(self.model.planet.insolation, InsolationLaw::Orbital);
+        let de = o.flux * o.eccentricity / (1.0 - o.eccentricity * o.eccentricity);
         for i in 0..n {
             let w = self.widths[i] * self.per_width;
             out[i] = match q {
                 Param::Flux => self.coalb[i] * w,
+                Param::Eccentricity if orbital => de * self.coalb[i] * w,
                 Param::OlrA if linear => -w,
                 Param::OlrB if linear => -u[i] * w,
                 Param::Co2 => 5.35 / self.model.planet.co2_ppm * w,
