@@ -220,6 +220,10 @@ pub fn trace_edge_fold_curve(
     let mut work = EdgeFoldWork::default();
     let (start, slope0) =
         locate(&mut pr, &v, c0, j, tolerance, None).ok_or(EdgeFoldError::NoFold)?;
+    // the fold asked for, not a neighbour the secant ran to
+    if (pr.value(start.p) - p).abs() > 1e-6 * p.abs().max(1.0) {
+        return Err(EdgeFoldError::NoFold);
+    }
     work.located += 1;
     let a0 = model.param(across);
     let span = (a_hi - a_lo).abs();
