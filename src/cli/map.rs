@@ -229,12 +229,27 @@ pub(super) fn parse_acrosses(
 /// thread ([`crate::analysis::ordered::run_ordered`]).
 const WINDOW_PER_THREAD: usize = 4;
 
-/// Runs `map`.
-pub fn cmd_map(args: &Args) -> Result<String, CliError> {
-    let sc = load(args)?;
-    // the scenario's own model: periodic climates for a seasonal scenario,
-    // never an annual-mean map in its place
-    let mm = map_model(&sc)?;
+/// A map's options, checked against the model that computes it: the
+/// grid ([`MapSpec`]), the across and traced parameters, the worker count
+/// and the shard.
+pub(super) struct MapPlan {
+    /// The map's grid and command.
+    pub(super) spec: MapSpec,
+    /// The first across parameter.
+    pub(super) across: Param,
+    /// The traced parameter.
+    pub(super) vary: Param,
+    /// Worker threads.
+    pub(super) workers: usize,
+    /// `--shard K/N`, if given.
+    pub(super) shard: Option<(usize, usize)>,
+}
+
+/// Reads the map options of `args` for the model `mm`: `--vary`/`--from`/
+/// `--to`, every `--across` (default orbit.obliquity=0:90:91), the keys the
+/// model cannot take, `--fold-curves` with a seasonal model, `--cells`,
+/// `--threads`, `--shard`. Errors: exit 2 with the option named.
+pub(super) fn plan(args: &Args, mm: &MapModel) -> Result<MapPlan, CliError> {
     let model = mm.annual();
     let default_across = vec!["orbit.obliquity=0:90:91".to_string()];
     let across_texts = if args.across.is_empty() {
@@ -264,7 +279,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         .map(|p| (across_flag, *p))
         .chain([(vary_flag, vary)])
     {
-        if let Some(e) = seasonal_key_error(&mm, flag, p) {
+        if let Some(e) = seasonal_key_error(mm, flag, p) {
             return Err(usage(e));
         }
     }
@@ -295,9 +310,6 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         fold_curves: !args.no_fold_curves && matches!(mm, MapModel::Annual(_)),
         more,
     };
-    let indices: Vec<usize> = (0..spec.slices())
-        .filter(|j| shard.is_none_or(|(k, n)| j % n == k))
-        .collect();
     // the worker count as rayon would choose it (RAYON_NUM_THREADS, else
     // the cores) when --threads is not given
     let workers = rayon::ThreadPoolBuilder::new()
@@ -305,12 +317,35 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         .build()
         .map_err(|e| CliError::Failed(format!("cannot start worker threads: {e}")))?
         .current_num_threads();
-    let bar = Progress::bar(
-        &format!("map ({})", mm.name()),
-        indices.len() as u64,
-        "slices",
-        args.quiet,
-    );
+    Ok(MapPlan {
+        spec,
+        across,
+        vary,
+        workers,
+        shard,
+    })
+}
+
+/// Computes the slices of `plan` (of its shard, if any) with the model
+/// `mm` of the scenario `sc` on the plan's workers and hands them to
+/// `sink` in slice order, at most a window of finished slices held ahead
+/// of the next ([`run_ordered`]); the dense solves inside a slice run on
+/// its own thread, so no result depends on the threads. `what` names the
+/// progress bar. Errors: a cancelled run (Args::cancel, checked between
+/// slices), or the sink's.
+pub(super) fn compute_slices(
+    args: &Args,
+    sc: &crate::io::scenario::Scenario,
+    mm: &MapModel,
+    plan: &MapPlan,
+    what: &str,
+    sink: impl FnMut(Slice) -> Result<(), CliError>,
+) -> Result<(), CliError> {
+    let (spec, workers) = (&plan.spec, plan.workers);
+    let indices: Vec<usize> = (0..spec.slices())
+        .filter(|j| plan.shard.is_none_or(|(k, n)| j % n == k))
+        .collect();
+    let bar = Progress::bar(what, indices.len() as u64, "slices", args.quiet);
     // parallel only over slices: the dense solves inside a slice (faer:
     // the seasonal model's monodromy LU and Floquet eigenvalues) run on the
     // slice's thread, so a slice's result cannot depend on the threads
@@ -320,21 +355,6 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         sc.num("solver.cold_start"),
         sc.num("solver.tolerance"),
     );
-    let dir = args
-        .out
-        .clone()
-        .unwrap_or_else(|| PathBuf::from("out").join("map"));
-    let mut out = OutputSet::new();
-    let scenario = sc.to_json();
-    let mut writer = MapWriter::new(
-        &mm,
-        &spec,
-        scenario_num(&scenario, "solver.tolerance", 1e-10),
-    );
-    let mut shard_slices: Vec<Slice> = Vec::new();
-    // slices are computed on `workers` threads and handed on in slice
-    // order, at most a window of finished slices held ahead of the next;
-    // a cancelled run (Args::cancel) stops between slices
     let run = run_ordered(
         &indices,
         workers,
@@ -343,10 +363,50 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
             if super::context::cancelled(args) {
                 return None;
             }
-            let s = mm.slice(&spec, across, vary, j, warm, cold, tol);
+            let s = mm.slice(spec, plan.across, plan.vary, j, warm, cold, tol);
             bar.inc();
             Some(s)
         },
+        sink,
+    );
+    bar.finish();
+    match run {
+        Ok(_) => Ok(()),
+        Err(OrderedStop::Cancelled) => Err(CliError::Failed("interrupted; nothing written".into())),
+        Err(OrderedStop::Sink(e)) => Err(e),
+    }
+}
+
+/// Runs `map` (with `--hierarchy`: [`super::maphier::cmd_map_hierarchy`]).
+pub fn cmd_map(args: &Args) -> Result<String, CliError> {
+    if args.hierarchy {
+        return super::maphier::cmd_map_hierarchy(args);
+    }
+    let sc = load(args)?;
+    // the scenario's own model: periodic climates for a seasonal scenario,
+    // never an annual-mean map in its place
+    let mm = map_model(&sc)?;
+    let plan = plan(args, &mm)?;
+    let (spec, shard) = (&plan.spec, plan.shard);
+    let tol = sc.num("solver.tolerance");
+    let dir = args
+        .out
+        .clone()
+        .unwrap_or_else(|| PathBuf::from("out").join("map"));
+    let mut out = OutputSet::new();
+    let scenario = sc.to_json();
+    let mut writer = MapWriter::new(
+        &mm,
+        spec,
+        scenario_num(&scenario, "solver.tolerance", 1e-10),
+    );
+    let mut shard_slices: Vec<Slice> = Vec::new();
+    compute_slices(
+        args,
+        &sc,
+        &mm,
+        &plan,
+        &format!("map ({})", mm.name()),
         |s| {
             if shard.is_some() {
                 shard_slices.push(s);
@@ -355,15 +415,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
                 writer.push(s)
             }
         },
-    );
-    bar.finish();
-    match run {
-        Ok(_) => {}
-        Err(OrderedStop::Cancelled) => {
-            return Err(CliError::Failed("interrupted; nothing written".into()));
-        }
-        Err(OrderedStop::Sink(e)) => return Err(e),
-    }
+    )?;
     if let Some((k, n)) = shard {
         let file = ShardFile {
             format: SHARD_FORMAT.into(),
@@ -398,7 +450,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         args.figures,
     )?;
     let written = super::context::publish(out, &dir, args)?;
-    Ok(map_report(&mm, &spec, tol, &tally) + &written_list(&written))
+    Ok(map_report(&mm, spec, tol, &tally) + &written_list(&written))
 }
 
 /// The map's stdout report: the model that made it, regimes present,
