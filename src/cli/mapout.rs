@@ -74,7 +74,8 @@ pub(super) struct MapWriter<'a> {
 }
 
 /// The `map.csv` columns: `model` with a model column, every across key,
-/// then the rest.
+/// then the rest (with a model column both residual columns,
+/// `residual_wm2` and `residual_k`).
 fn csv_columns<'a>(mm: &MapModel, spec: &'a MapSpec, model: bool) -> Vec<&'a str> {
     let mut c: Vec<&str> = if model { vec!["model"] } else { Vec::new() };
     c.push(spec.across.as_str());
@@ -88,9 +89,15 @@ fn csv_columns<'a>(mm: &MapModel, spec: &'a MapSpec, model: bool) -> Vec<&'a str
         "global_mean_temperature_c",
         "ice_area_fraction",
         "ice_edges_deg",
-        residual_column(mm),
-        "habitable_fraction",
     ]);
+    // a hierarchy's rows hold models of both residual units: one column
+    // per unit, empty where the row's model has the other
+    if model {
+        c.extend(["residual_wm2", "residual_k"]);
+    } else {
+        c.push(residual_column(mm));
+    }
+    c.push("habitable_fraction");
     c
 }
 
@@ -161,9 +168,17 @@ impl<'a> MapWriter<'a> {
                 Cell::Num(q.global_mean_c),
                 Cell::Num(q.ice_area_fraction),
                 Cell::Text(edges.join(";")),
-                Cell::Num(q.residual),
-                Cell::Num(q.habitable_fraction),
             ]);
+            if self.model.is_some() {
+                let (r, none) = (Cell::Num(q.residual), Cell::Text(String::new()));
+                row.extend(match self.mm {
+                    MapModel::Annual(_) => [r, none],
+                    MapModel::Seasonal(_) => [none, r],
+                });
+            } else {
+                row.push(Cell::Num(q.residual));
+            }
+            row.push(Cell::Num(q.habitable_fraction));
             t.push_row(row);
         }
         let rows = t.to_csv()?;

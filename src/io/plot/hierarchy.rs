@@ -285,7 +285,7 @@ impl Paint for BoundPaint<'_> {
         }
         let lines = || self.models.iter().flat_map(|m| m.lines.iter());
         for (method, text) in [
-            (BoundaryMethod::Slices, "joined from the slices' folds"),
+            (BoundaryMethod::Slices, "folds of the slices joined"),
             (
                 BoundaryMethod::FoldContinuation,
                 "fold continued in both parameters",
@@ -422,7 +422,7 @@ mod tests {
             "(a) annual mean",
             "(b) seasonal",
             "(c) seasonal with sea ice: no boundary",
-            "joined from the slices' folds",
+            "folds of the slices joined",
             "fold continued in both parameters",
         ] {
             assert_eq!(texts.iter().filter(|t| *t == name).count(), 1, "{name}");
