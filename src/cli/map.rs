@@ -377,7 +377,8 @@ pub(super) fn compute_slices(
     }
 }
 
-/// Runs `map` (with `--hierarchy`: [`super::maphier::cmd_map_hierarchy`]).
+/// Runs `map` (with `--hierarchy`: the map of each model of the hierarchy,
+/// `cli::maphier`).
 pub fn cmd_map(args: &Args) -> Result<String, CliError> {
     if args.hierarchy {
         return super::maphier::cmd_map_hierarchy(args);
