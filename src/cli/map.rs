@@ -326,48 +326,72 @@ pub(super) fn plan(args: &Args, mm: &MapModel) -> Result<MapPlan, CliError> {
     })
 }
 
-/// Computes the slices of `plan` (of its shard, if any) with the model
-/// `mm` of the scenario `sc` on the plan's workers and hands them to
-/// `sink` in slice order, at most a window of finished slices held ahead
-/// of the next ([`run_ordered`]); the dense solves inside a slice run on
-/// its own thread, so no result depends on the threads. `what` names the
-/// progress bar. Errors: a cancelled run (Args::cancel, checked between
-/// slices), or the sink's.
+/// One map to compute: the scenario, the model it makes and the map's
+/// options checked against that model.
+pub(super) struct MapJob<'a> {
+    /// The scenario (its `solver.*` keys).
+    pub(super) sc: &'a crate::io::scenario::Scenario,
+    /// The model that computes the slices.
+    pub(super) mm: &'a MapModel,
+    /// The map's options.
+    pub(super) plan: &'a MapPlan,
+}
+
+/// Computes the slices of every job (of its plan's shard, if any) on the
+/// first plan's workers, all jobs' slices in one pool (so a short map's
+/// last slices overlap the next map's first), and hands them to `sink`
+/// as (job, slice) in job order and within a job in slice order, at most a
+/// window of finished slices held ahead of the next ([`run_ordered`]); the
+/// dense solves inside a slice run on its own thread, so no result depends
+/// on the threads. `what` names the progress bar. Errors: a cancelled run
+/// (Args::cancel, checked between slices), or the sink's.
 pub(super) fn compute_slices(
     args: &Args,
-    sc: &crate::io::scenario::Scenario,
-    mm: &MapModel,
-    plan: &MapPlan,
+    jobs: &[MapJob],
     what: &str,
-    sink: impl FnMut(Slice) -> Result<(), CliError>,
+    mut sink: impl FnMut(usize, Slice) -> Result<(), CliError>,
 ) -> Result<(), CliError> {
-    let (spec, workers) = (&plan.spec, plan.workers);
-    let indices: Vec<usize> = (0..spec.slices())
-        .filter(|j| plan.shard.is_none_or(|(k, n)| j % n == k))
+    let workers = jobs.first().map_or(1, |j| j.plan.workers);
+    let items: Vec<(usize, usize)> = jobs
+        .iter()
+        .enumerate()
+        .flat_map(|(k, job)| {
+            let shard = job.plan.shard;
+            (0..job.plan.spec.slices())
+                .filter(move |j| shard.is_none_or(|(s, n)| j % n == s))
+                .map(move |j| (k, j))
+        })
         .collect();
-    let bar = Progress::bar(what, indices.len() as u64, "slices", args.quiet);
+    let bar = Progress::bar(what, items.len() as u64, "slices", args.quiet);
     // parallel only over slices: the dense solves inside a slice (faer:
     // the seasonal model's monodromy LU and Floquet eigenvalues) run on the
     // slice's thread, so a slice's result cannot depend on the threads
     faer::set_global_parallelism(faer::Par::Seq);
-    let (warm, cold, tol) = (
-        sc.num("solver.warm_start"),
-        sc.num("solver.cold_start"),
-        sc.num("solver.tolerance"),
-    );
+    let solver: Vec<(f64, f64, f64)> = jobs
+        .iter()
+        .map(|job| {
+            (
+                job.sc.num("solver.warm_start"),
+                job.sc.num("solver.cold_start"),
+                job.sc.num("solver.tolerance"),
+            )
+        })
+        .collect();
     let run = run_ordered(
-        &indices,
+        &items,
         workers,
         WINDOW_PER_THREAD * workers,
-        |&j| {
+        |&(k, j)| {
             if super::context::cancelled(args) {
                 return None;
             }
-            let s = mm.slice(spec, plan.across, plan.vary, j, warm, cold, tol);
+            let (job, (warm, cold, tol)) = (&jobs[k], solver[k]);
+            let p = job.plan;
+            let s = job.mm.slice(&p.spec, p.across, p.vary, j, warm, cold, tol);
             bar.inc();
-            Some(s)
+            Some((k, s))
         },
-        sink,
+        |(k, s)| sink(k, s),
     );
     bar.finish();
     match run {
@@ -402,21 +426,19 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         scenario_num(&scenario, "solver.tolerance", 1e-10),
     );
     let mut shard_slices: Vec<Slice> = Vec::new();
-    compute_slices(
-        args,
-        &sc,
-        &mm,
-        &plan,
-        &format!("map ({})", mm.name()),
-        |s| {
-            if shard.is_some() {
-                shard_slices.push(s);
-                Ok(())
-            } else {
-                writer.push(s)
-            }
-        },
-    )?;
+    let job = MapJob {
+        sc: &sc,
+        mm: &mm,
+        plan: &plan,
+    };
+    compute_slices(args, &[job], &format!("map ({})", mm.name()), |_, s| {
+        if shard.is_some() {
+            shard_slices.push(s);
+            Ok(())
+        } else {
+            writer.push(s)
+        }
+    })?;
     if let Some((k, n)) = shard {
         let file = ShardFile {
             format: SHARD_FORMAT.into(),

@@ -5,7 +5,7 @@
 //! regimes and boundaries survive which physics.
 use super::context::{Args, CliError, VERSION, load, written_list};
 use super::hierarchy::{MODELS, hierarchy_scenarios};
-use super::map::{MapPlan, compute_slices, map_model, map_report, plan, usage};
+use super::map::{MapJob, MapPlan, compute_slices, map_model, map_report, plan, usage};
 use super::mapnc::{NcPart, map_netcdf};
 use super::mapout::{MapWriter, Rendered, scenario_num};
 use crate::analysis::sweep::{MapModel, is_transition};
@@ -32,9 +32,9 @@ fn body(csv: &[u8]) -> &[u8] {
 
 /// Runs `map --hierarchy`: the same sweep (`--across`, `--vary`, `--from`,
 /// `--to`, `--cells`) for each model of the hierarchy, each computed
-/// exactly as a plain `map` of that model's scenario (slices in parallel,
-/// handed on in slice order, so nothing depends on the threads), one model
-/// after the other. Writes `map.csv` and `boundaries.csv` (the rows of the
+/// exactly as a plain `map` of that model's scenario (the slices of all
+/// three in one pool of workers, handed on model by model in slice order,
+/// so nothing depends on the threads). Writes `map.csv` and `boundaries.csv` (the rows of the
 /// three maps with a leading `model` column), `map.nc` (a `model`
 /// dimension before the map's own), `summary.json` (per model the
 /// `summary.json` its plain map writes), `map_hierarchy.svg/.png` (the
@@ -81,22 +81,41 @@ pub fn cmd_map_hierarchy(args: &Args) -> Result<String, CliError> {
         )));
     }
     let tol = sc.num("solver.tolerance");
+    let scenarios: Vec<serde_json::Value> = variants.iter().map(|v| v.to_json()).collect();
+    let mut writers: Vec<MapWriter> = models
+        .iter()
+        .zip(&plans)
+        .zip(&scenarios)
+        .enumerate()
+        .map(|(k, ((mm, p), scenario))| {
+            MapWriter::new(
+                mm,
+                &p.spec,
+                scenario_num(scenario, "solver.tolerance", 1e-10),
+            )
+            .with_model_column(MODELS[k].0)
+        })
+        .collect();
+    // every model's slices in one pool, handed on model by model
+    let jobs: Vec<MapJob> = variants
+        .iter()
+        .zip(&models)
+        .zip(&plans)
+        .map(|((sc, mm), plan)| MapJob { sc, mm, plan })
+        .collect();
+    compute_slices(args, &jobs, "map --hierarchy", |k, s| writers[k].push(s))?;
     let mut rendered: Vec<Rendered> = Vec::new();
     let mut reports = String::new();
-    for (k, ((mm, p), v)) in models.iter().zip(&plans).zip(&variants).enumerate() {
+    for (k, (((w, mm), p), v)) in writers
+        .into_iter()
+        .zip(&models)
+        .zip(&plans)
+        .zip(&variants)
+        .enumerate()
+    {
         let (name, label, _) = MODELS[k];
-        let scenario = v.to_json();
-        let mut writer = MapWriter::new(
-            mm,
-            &p.spec,
-            scenario_num(&scenario, "solver.tolerance", 1e-10),
-        )
-        .with_model_column(name);
-        compute_slices(args, v, mm, p, &format!("map --hierarchy ({name})"), |s| {
-            writer.push(s)
-        })?;
-        let (r, _) = writer
-            .render(&scenario, v.name(), plot::Formats::None)
+        let (r, _) = w
+            .render(&scenarios[k], v.name(), plot::Formats::None)
             .map_err(|e| match e {
                 CliError::Failed(m) => CliError::Failed(format!("the {name} model: {m}")),
                 other => other,
