@@ -80,6 +80,19 @@ pub fn cmd_map_hierarchy(args: &Args) -> Result<String, CliError> {
             "--hierarchy with radiation.forcing as --vary or --across: the annual-mean and seasonal models carry the sea-ice model's ocean heat flux seaice.ocean_heat_flux = {fb} W m-2 inside their forcing, so one axis of F is not the same planet in the three models; map another key (e.g. orbit.flux), or set seaice.ocean_heat_flux = 0"
         )));
     }
+    // one grid for all: the models differ in physics, never in the map
+    for (k, p) in plans.iter().enumerate() {
+        let mut spec = p.spec.clone();
+        spec.fold_curves = plans[2].spec.fold_curves;
+        if spec != plans[2].spec {
+            return Err(CliError::Failed(format!(
+                "internal: the {} model's map grid ({}) is not that of the others ({}); nothing written",
+                MODELS[k].0,
+                spec.command(),
+                plans[2].spec.command()
+            )));
+        }
+    }
     let tol = sc.num("solver.tolerance");
     let scenarios: Vec<serde_json::Value> = variants.iter().map(|v| v.to_json()).collect();
     let mut writers: Vec<MapWriter> = models
