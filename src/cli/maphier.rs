@@ -34,8 +34,10 @@ fn body(csv: &[u8]) -> &[u8] {
 /// `--to`, `--cells`) for each model of the hierarchy, each computed
 /// exactly as a plain `map` of that model's scenario (the slices of all
 /// three in one pool of workers, handed on model by model in slice order,
-/// so nothing depends on the threads). Writes `map.csv` and `boundaries.csv` (the rows of the
-/// three maps with a leading `model` column), `map.nc` (a `model`
+/// so nothing depends on the threads). Writes `map.csv` and
+/// `boundaries.csv` (the rows of the three maps with a leading `model`
+/// column; `map.csv` with both `residual_wm2` and `residual_k`, the
+/// other model's empty), `map.nc` (a `model`
 /// dimension before the map's own), `summary.json` (per model the
 /// `summary.json` its plain map writes), `map_hierarchy.svg/.png` (the
 /// models' boundaries overlaid) and `scenario.toml`.
