@@ -289,6 +289,7 @@ fn every_command_has_help_and_the_tool_a_version() {
         "--threads",
         "--shard",
         "--fold-curves",
+        "--hierarchy",
         "--set",
         "--out",
         "--quiet",

@@ -486,3 +486,92 @@ fn annual_commands_refuse_sea_ice() {
     }
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// The `periodic` profile figure's albedo of a sea-ice climate is the ice
+/// the model has (issue 11): ice where the surface enthalpy E < 0 (Wagner
+/// & Eisenman 2015, section 2b). Per band and sample, where both
+/// neighbours share the band's sign of E the sub-grid step takes the whole
+/// band (ice or open water), else the edge lies inside it and its albedo
+/// lies between the two; so the year-mean albedo of a band with n_i
+/// all-ice and n_e edge samples out of N lies between f α_ice +
+/// (1 - f) α_open at f = n_i/N and at f = (n_i + n_e)/N (equal with no
+/// edge samples). α_ice, α_open of each band come from a separate path
+/// (the annual-mean model's band fluxes of an all-frozen and an all-open
+/// profile), the counts from the signs of E (common practice, no source:
+/// a time mean of a piecewise quantity). The old figure showed the albedo
+/// of the annual-mean surface temperature, which lies outside those
+/// bounds in a band with seasonal ice (the polar band here: the winter
+/// ice surface is far below freezing, so the annual mean is "ice" though
+/// the band is open water part of the year): the last assertion fails on
+/// it.
+#[test]
+fn periodic_profile_albedo_is_the_ice_of_the_enthalpy() {
+    let mut sm = sea_ice(&["grid.bands=30", "seasons.steps_per_year=36"]);
+    let grid = sm.model().grid.clone();
+    let n = grid.centres.len();
+    let t0: Vec<f64> = grid.centres.iter().map(|x| 28.0 - 45.0 * x * x).collect();
+    let start = icefold::model::climate::Start {
+        label: "guess".into(),
+        temperature: t0,
+    };
+    let p = periodic_from(&mut sm, &start, &ShootingOptions::default()).unwrap();
+    let c = cycle(&mut sm, &p.start).unwrap();
+    let am = sm.annual_model();
+    let got = icefold::analysis::cycle::annual_albedo(&am, &c);
+    let band_albedo = |t: f64| -> Vec<f64> {
+        let fl = am.band_fluxes(&vec![t; n]);
+        fl.insolation
+            .iter()
+            .zip(&fl.absorbed)
+            .map(|(s, a)| 1.0 - a / s)
+            .collect()
+    };
+    let (ice, open) = (band_albedo(-50.0), band_albedo(50.0));
+    let old = {
+        let fl = am.band_fluxes(&c.annual_mean);
+        fl.insolation
+            .iter()
+            .zip(&fl.absorbed)
+            .map(|(s, a)| 1.0 - a / s)
+            .collect::<Vec<f64>>()
+    };
+    let steps = c.ice_profiles.len() as f64;
+    let (mut compared, mut seasonal, mut differs) = (0, 0, 0);
+    for i in 0..n {
+        let (lo, hi) = (i.saturating_sub(1), (i + 1).min(n - 1));
+        // per sample: ice (E < 0) over the whole band where the neighbours
+        // share its sign, open likewise, else the edge lies in the band
+        // and its albedo lies between the two
+        let (mut iced, mut edged) = (0.0, 0.0);
+        for q in &c.ice_profiles {
+            let s = q[i] < 0.0;
+            if (q[lo] < 0.0) != s || (q[hi] < 0.0) != s {
+                edged += 1.0;
+            } else if s {
+                iced += 1.0;
+            }
+        }
+        let at = |f: f64| f * ice[i] + (1.0 - f) * open[i];
+        let (a, b) = (at(iced / steps), at((iced + edged) / steps));
+        let (a, b) = (a.min(b), a.max(b));
+        assert!(
+            got[i] >= a - 1e-12 && got[i] <= b + 1e-12,
+            "band {i}: albedo {} outside [{a}, {b}] ({iced} samples ice, {edged} with the edge inside)",
+            got[i]
+        );
+        compared += 1;
+        if iced + edged > 0.0 && iced < steps {
+            seasonal += 1;
+            if old[i] < a - 0.02 || old[i] > b + 0.02 {
+                differs += 1;
+            }
+        }
+    }
+    assert_eq!(compared, n);
+    assert!(seasonal > 0, "no band with seasonal ice to compare");
+    // (the old behaviour: the albedo of the annual-mean temperature)
+    assert!(
+        differs > 0,
+        "the albedo of the annual-mean temperature equals the ice's in every seasonal band"
+    );
+}

@@ -353,6 +353,7 @@ def map(
     cells: Optional[int] = None,
     threads: Optional[int] = None,
     fold_curves: Optional[bool] = None,
+    hierarchy: bool = False,
     figures: Union[bool, str] = False,
     progress: bool = False,
     **overrides: Any,
@@ -365,7 +366,10 @@ def map(
     fold curves along ``boundary`` (``boundary_*``). ``across`` is ``KEY=FROM:TO:COUNT``,
     or a list of them for a map over several keys (the command's repeated
     ``--across``, the first slowest): ``map.nc`` then has one dimension per
-    key."""
+    key. ``hierarchy=True`` is ``--hierarchy``: the same map in the annual-mean,
+    seasonal and seasonal sea-ice models, ``map.nc``'s variables with a
+    leading ``model`` dimension and ``point_model``/``boundary_model`` naming
+    each row's model."""
     acrosses = [across] if across is None or isinstance(across, str) else list(across)
     opts = [("across", a) for a in acrosses] + [
         ("vary", vary),
@@ -379,6 +383,8 @@ def map(
         opts.append(("fold-curves", "true"))
     elif fold_curves is not None:
         opts.append(("no-fold-curves", "true"))
+    if hierarchy:
+        opts.append(("hierarchy", "true"))
     text, files = _call("map", scenario, sets, overrides, opts, figures, progress)
     return _dataset(
         "map", text, files, {"map.csv": "point", "boundaries.csv": "boundary"}, grid="map.nc"

@@ -183,6 +183,33 @@ def test_map_over_two_keys_equals_the_command(tmp_path):
         xr.testing.assert_identical(ds[v].drop_attrs(), theirs[v].drop_attrs())
 
 
+def test_map_hierarchy_equals_the_command(tmp_path):
+    # common practice, no source: map(hierarchy=True) returns the rows of
+    # `map --hierarchy` with their model and its map.nc with the model
+    # dimension
+    scenario = ROOT / "scenarios" / "sea-ice.toml"
+    across = "transport.diffusivity=0.5:0.7:2"
+    small = {"grid.bands": 16, "seasons.steps_per_year": 24}
+    sets = [a for k, v in small.items() for a in ("--set", f"{k}={v}")]
+    _, files = cli(
+        tmp_path, "map", scenario, "--hierarchy", "--across", across,
+        "--vary", "orbit.flux", "--from", "1300", "--to", "1400", "--cells", "10", *sets,
+    )
+    ds = icefold.map(
+        scenario, across=across, vary="orbit.flux", start=1300, stop=1400,
+        cells=10, hierarchy=True, **small,
+    )
+    assert_tables_equal(ds, files, "map.csv", "point", "point_")
+    assert_tables_equal(ds, files, "boundaries.csv", "boundary", "boundary_")
+    assert set(ds["point_model"].values) == {"annual-mean", "seasonal", "seasonal-sea-ice"}
+    nc = tmp_path / "maphier.nc"
+    nc.write_bytes(files["map.nc"])
+    theirs = xr.open_dataset(nc, engine="scipy").load()
+    assert theirs.sizes["model"] == 3
+    for v in theirs.data_vars:
+        xr.testing.assert_identical(ds[v].drop_attrs(), theirs[v].drop_attrs())
+
+
 def test_figures_by_format(tmp_path):
     # common practice, no source: figures="svg" draws the SVG only, the same
     # bytes as the command's; a bad choice names the allowed ones

@@ -254,6 +254,33 @@ pub fn cycle_diagnostics(annual_model: &Model, c: &Cycle) -> crate::model::clima
     summary_diagnostics(annual_model, &c.annual_mean, &ice)
 }
 
+/// The annual-mean albedo per band that the model applies through the
+/// cycle: ᾱ_i = (1/N) Σ_k [1 - a_i(p_k)/S_i], the mean over the N samples
+/// of the band albedo of each sample's ice ([`Cycle::ice_profiles`] p_k:
+/// with sea ice p_k = E_k/c_w, ice where the enthalpy is negative, Wagner &
+/// Eisenman 2015 section 2b; without it the temperature itself), each band
+/// albedo 1 - a/S taken with the sub-grid step of
+/// [`crate::model::subgrid`] under the annual-mean insolation S_i of
+/// `annual_model` (the model's internal threshold: 0 on E/c_w with sea
+/// ice). Not the albedo of the annual-mean temperature: over seasonal sea
+/// ice the annual-mean surface temperature can lie below the freezing point
+/// while the band is open water for part of the year. Bands without
+/// insolation report 0.
+pub fn annual_albedo(annual_model: &Model, c: &Cycle) -> Vec<f64> {
+    let n = annual_model.len();
+    let steps = c.ice_profiles.len().max(1) as f64;
+    let mut mean = vec![0.0; n];
+    for p in &c.ice_profiles {
+        let fl = annual_model.band_fluxes(p);
+        for (m, (s, a)) in mean.iter_mut().zip(fl.insolation.iter().zip(&fl.absorbed)) {
+            if *s > 0.0 {
+                *m += (1.0 - a / s) / steps;
+            }
+        }
+    }
+    mean
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -196,6 +196,12 @@ pub struct MapCmd {
     /// Do not continue the folds in two parameters (annual-mean maps).
     #[arg(long)]
     pub no_fold_curves: bool,
+    /// Map the same planet in the model hierarchy: annual mean, seasonal,
+    /// seasonal with sea ice (as trace --hierarchy builds them); one set of
+    /// files with a model column or dimension, and a figure comparing the
+    /// models' boundaries. Not with --shard or --fold-curves.
+    #[arg(long)]
+    pub hierarchy: bool,
     #[command(flatten)]
     #[allow(missing_docs)]
     pub output: OutputOpts,
@@ -330,6 +336,7 @@ impl Cli {
                 shard: c.shard,
                 fold_curves: c.fold_curves,
                 no_fold_curves: c.no_fold_curves,
+                hierarchy: c.hierarchy,
                 ..base("map", c.scenario, c.output, line)
             },
             Command::Merge(c) => Args {

@@ -76,7 +76,7 @@ pub struct Args {
     /// `--no-fold-curves` (map). Fold curves are on for annual-mean maps
     /// unless this is set, off for seasonal ones.
     pub no_fold_curves: bool,
-    /// `--hierarchy` (trace).
+    /// `--hierarchy` (trace, map).
     pub hierarchy: bool,
     /// `--figures`: which figure files to render (none: tables and
     /// summaries only, as the library front asks).

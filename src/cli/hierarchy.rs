@@ -14,7 +14,7 @@ use crate::io::scenario::Scenario;
 
 /// The models of the hierarchy: (name in outputs, legend label, the
 /// `--set` lines that make the scenario that model).
-const MODELS: [(&str, &str, [&str; 2]); 3] = [
+pub(super) const MODELS: [(&str, &str, [&str; 2]); 3] = [
     (
         "annual-mean",
         "(a) annual mean",
@@ -43,30 +43,8 @@ const MODELS: [(&str, &str, [&str; 2]); 3] = [
 pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     let sc = load(args)?;
     let base = sc.to_toml();
-    // the same planet in every model: the ocean heat flux F_b that the
-    // sea-ice model takes from below enters (a) and (b) as a forcing
     let fb = sc.num("seaice.ocean_heat_flux");
-    let f0 = sc.num("radiation.forcing");
-    let variants: Vec<Scenario> = MODELS
-        .iter()
-        .enumerate()
-        .map(|(k, (_, _, sets))| {
-            let mut all = args.sets.clone();
-            all.extend(sets.iter().map(|s| s.to_string()));
-            if k < 2 {
-                all.push(format!("radiation.forcing={}", f0 + fb));
-            }
-            Scenario::parse(&base, &sc.source, &all)
-        })
-        .collect::<Result<_, _>>()?;
-    // the seasonal models need the full grid: say so before computing
-    for (v, (name, _, _)) in variants.iter().zip(&MODELS).skip(1) {
-        v.seasonal_model().map_err(|e| {
-            CliError::Usage(format!(
-                "--hierarchy: the {name} model refuses this scenario: {e}"
-            ))
-        })?;
-    }
+    let variants = hierarchy_scenarios(args, &sc)?;
     let model = variants[2].model();
     let (param, from, to) = parse_range(args, &model)?;
     // traced in F itself, (a) and (b) run over the range shifted by F_b and
@@ -237,6 +215,44 @@ pub fn cmd_hierarchy(args: &Args) -> Result<String, CliError> {
     out.add_text(dir.join("scenario.toml"), &base);
     let written = super::context::publish(out, &dir, args)?;
     Ok(text + &written_list(&written))
+}
+
+/// The scenario of each model of the hierarchy ([`MODELS`], in order),
+/// the same planet in each: `sc` with the `--set` lines of `args` and then
+/// those of the model, and the ocean heat flux F_b
+/// (`seaice.ocean_heat_flux`), which the sea-ice model adds under its mixed
+/// layer everywhere, added to the forcing of (a) and (b):
+/// `radiation.forcing` = F + F_b there. Used by `trace --hierarchy` and
+/// `map --hierarchy`. Errors (exit 2): a model's scenario that does not
+/// validate, or a scenario the seasonal models refuse (e.g. a symmetric
+/// grid), naming the model.
+pub(super) fn hierarchy_scenarios(args: &Args, sc: &Scenario) -> Result<Vec<Scenario>, CliError> {
+    let base = sc.to_toml();
+    // the same planet in every model: the ocean heat flux F_b that the
+    // sea-ice model takes from below enters (a) and (b) as a forcing
+    let fb = sc.num("seaice.ocean_heat_flux");
+    let f0 = sc.num("radiation.forcing");
+    let variants: Vec<Scenario> = MODELS
+        .iter()
+        .enumerate()
+        .map(|(k, (_, _, sets))| {
+            let mut all = args.sets.clone();
+            all.extend(sets.iter().map(|s| s.to_string()));
+            if k < 2 {
+                all.push(format!("radiation.forcing={}", f0 + fb));
+            }
+            Scenario::parse(&base, &sc.source, &all)
+        })
+        .collect::<Result<_, _>>()?;
+    // the seasonal models need the full grid: say so before computing
+    for (v, (name, _, _)) in variants.iter().zip(&MODELS).skip(1) {
+        v.seasonal_model().map_err(|e| {
+            CliError::Usage(format!(
+                "--hierarchy: the {name} model refuses this scenario: {e}"
+            ))
+        })?;
+    }
+    Ok(variants)
 }
 
 /// Moves a trace in `radiation.forcing` made at F + s onto the axis of F:

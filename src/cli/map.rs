@@ -229,12 +229,27 @@ pub(super) fn parse_acrosses(
 /// thread ([`crate::analysis::ordered::run_ordered`]).
 const WINDOW_PER_THREAD: usize = 4;
 
-/// Runs `map`.
-pub fn cmd_map(args: &Args) -> Result<String, CliError> {
-    let sc = load(args)?;
-    // the scenario's own model: periodic climates for a seasonal scenario,
-    // never an annual-mean map in its place
-    let mm = map_model(&sc)?;
+/// A map's options, checked against the model that computes it: the
+/// grid ([`MapSpec`]), the across and traced parameters, the worker count
+/// and the shard.
+pub(super) struct MapPlan {
+    /// The map's grid and command.
+    pub(super) spec: MapSpec,
+    /// The first across parameter.
+    pub(super) across: Param,
+    /// The traced parameter.
+    pub(super) vary: Param,
+    /// Worker threads.
+    pub(super) workers: usize,
+    /// `--shard K/N`, if given.
+    pub(super) shard: Option<(usize, usize)>,
+}
+
+/// Reads the map options of `args` for the model `mm`: `--vary`/`--from`/
+/// `--to`, every `--across` (default orbit.obliquity=0:90:91), the keys the
+/// model cannot take, `--fold-curves` with a seasonal model, `--cells`,
+/// `--threads`, `--shard`. Errors: exit 2 with the option named.
+pub(super) fn plan(args: &Args, mm: &MapModel) -> Result<MapPlan, CliError> {
     let model = mm.annual();
     let default_across = vec!["orbit.obliquity=0:90:91".to_string()];
     let across_texts = if args.across.is_empty() {
@@ -264,7 +279,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         .map(|p| (across_flag, *p))
         .chain([(vary_flag, vary)])
     {
-        if let Some(e) = seasonal_key_error(&mm, flag, p) {
+        if let Some(e) = seasonal_key_error(mm, flag, p) {
             return Err(usage(e));
         }
     }
@@ -295,9 +310,6 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         fold_curves: !args.no_fold_curves && matches!(mm, MapModel::Annual(_)),
         more,
     };
-    let indices: Vec<usize> = (0..spec.slices())
-        .filter(|j| shard.is_none_or(|(k, n)| j % n == k))
-        .collect();
     // the worker count as rayon would choose it (RAYON_NUM_THREADS, else
     // the cores) when --threads is not given
     let workers = rayon::ThreadPoolBuilder::new()
@@ -305,21 +317,103 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         .build()
         .map_err(|e| CliError::Failed(format!("cannot start worker threads: {e}")))?
         .current_num_threads();
-    let bar = Progress::bar(
-        &format!("map ({})", mm.name()),
-        indices.len() as u64,
-        "slices",
-        args.quiet,
-    );
+    Ok(MapPlan {
+        spec,
+        across,
+        vary,
+        workers,
+        shard,
+    })
+}
+
+/// One map to compute: the scenario, the model it makes and the map's
+/// options checked against that model.
+pub(super) struct MapJob<'a> {
+    /// The scenario (its `solver.*` keys).
+    pub(super) sc: &'a crate::io::scenario::Scenario,
+    /// The model that computes the slices.
+    pub(super) mm: &'a MapModel,
+    /// The map's options.
+    pub(super) plan: &'a MapPlan,
+}
+
+/// Computes the slices of every job (of its plan's shard, if any) on the
+/// first plan's workers, all jobs' slices in one pool (so a short map's
+/// last slices overlap the next map's first), and hands them to `sink`
+/// as (job, slice) in job order and within a job in slice order, at most a
+/// window of finished slices held ahead of the next ([`run_ordered`]); the
+/// dense solves inside a slice run on its own thread, so no result depends
+/// on the threads. `what` names the progress bar. Errors: a cancelled run
+/// (Args::cancel, checked between slices), or the sink's.
+pub(super) fn compute_slices(
+    args: &Args,
+    jobs: &[MapJob],
+    what: &str,
+    mut sink: impl FnMut(usize, Slice) -> Result<(), CliError>,
+) -> Result<(), CliError> {
+    let workers = jobs.first().map_or(1, |j| j.plan.workers);
+    let items: Vec<(usize, usize)> = jobs
+        .iter()
+        .enumerate()
+        .flat_map(|(k, job)| {
+            let shard = job.plan.shard;
+            (0..job.plan.spec.slices())
+                .filter(move |j| shard.is_none_or(|(s, n)| j % n == s))
+                .map(move |j| (k, j))
+        })
+        .collect();
+    let bar = Progress::bar(what, items.len() as u64, "slices", args.quiet);
     // parallel only over slices: the dense solves inside a slice (faer:
     // the seasonal model's monodromy LU and Floquet eigenvalues) run on the
     // slice's thread, so a slice's result cannot depend on the threads
     faer::set_global_parallelism(faer::Par::Seq);
-    let (warm, cold, tol) = (
-        sc.num("solver.warm_start"),
-        sc.num("solver.cold_start"),
-        sc.num("solver.tolerance"),
+    let solver: Vec<(f64, f64, f64)> = jobs
+        .iter()
+        .map(|job| {
+            (
+                job.sc.num("solver.warm_start"),
+                job.sc.num("solver.cold_start"),
+                job.sc.num("solver.tolerance"),
+            )
+        })
+        .collect();
+    let run = run_ordered(
+        &items,
+        workers,
+        WINDOW_PER_THREAD * workers,
+        |&(k, j)| {
+            if super::context::cancelled(args) {
+                return None;
+            }
+            let (job, (warm, cold, tol)) = (&jobs[k], solver[k]);
+            let p = job.plan;
+            let s = job.mm.slice(&p.spec, p.across, p.vary, j, warm, cold, tol);
+            bar.inc();
+            Some((k, s))
+        },
+        |(k, s)| sink(k, s),
     );
+    bar.finish();
+    match run {
+        Ok(_) => Ok(()),
+        Err(OrderedStop::Cancelled) => Err(CliError::Failed("interrupted; nothing written".into())),
+        Err(OrderedStop::Sink(e)) => Err(e),
+    }
+}
+
+/// Runs `map` (with `--hierarchy`: the map of each model of the hierarchy,
+/// `cli::maphier`).
+pub fn cmd_map(args: &Args) -> Result<String, CliError> {
+    if args.hierarchy {
+        return super::maphier::cmd_map_hierarchy(args);
+    }
+    let sc = load(args)?;
+    // the scenario's own model: periodic climates for a seasonal scenario,
+    // never an annual-mean map in its place
+    let mm = map_model(&sc)?;
+    let plan = plan(args, &mm)?;
+    let (spec, shard) = (&plan.spec, plan.shard);
+    let tol = sc.num("solver.tolerance");
     let dir = args
         .out
         .clone()
@@ -328,42 +422,23 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
     let scenario = sc.to_json();
     let mut writer = MapWriter::new(
         &mm,
-        &spec,
+        spec,
         scenario_num(&scenario, "solver.tolerance", 1e-10),
     );
     let mut shard_slices: Vec<Slice> = Vec::new();
-    // slices are computed on `workers` threads and handed on in slice
-    // order, at most a window of finished slices held ahead of the next;
-    // a cancelled run (Args::cancel) stops between slices
-    let run = run_ordered(
-        &indices,
-        workers,
-        WINDOW_PER_THREAD * workers,
-        |&j| {
-            if super::context::cancelled(args) {
-                return None;
-            }
-            let s = mm.slice(&spec, across, vary, j, warm, cold, tol);
-            bar.inc();
-            Some(s)
-        },
-        |s| {
-            if shard.is_some() {
-                shard_slices.push(s);
-                Ok(())
-            } else {
-                writer.push(s)
-            }
-        },
-    );
-    bar.finish();
-    match run {
-        Ok(_) => {}
-        Err(OrderedStop::Cancelled) => {
-            return Err(CliError::Failed("interrupted; nothing written".into()));
+    let job = MapJob {
+        sc: &sc,
+        mm: &mm,
+        plan: &plan,
+    };
+    compute_slices(args, &[job], &format!("map ({})", mm.name()), |_, s| {
+        if shard.is_some() {
+            shard_slices.push(s);
+            Ok(())
+        } else {
+            writer.push(s)
         }
-        Err(OrderedStop::Sink(e)) => return Err(e),
-    }
+    })?;
     if let Some((k, n)) = shard {
         let file = ShardFile {
             format: SHARD_FORMAT.into(),
@@ -398,7 +473,7 @@ pub fn cmd_map(args: &Args) -> Result<String, CliError> {
         args.figures,
     )?;
     let written = super::context::publish(out, &dir, args)?;
-    Ok(map_report(&mm, &spec, tol, &tally) + &written_list(&written))
+    Ok(map_report(&mm, spec, tol, &tally) + &written_list(&written))
 }
 
 /// The map's stdout report: the model that made it, regimes present,

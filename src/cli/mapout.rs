@@ -5,7 +5,7 @@
 //! the other files need (its cells' climates, folds and notes).
 //! `map.nc` is written by `map_netcdf` in `super::mapnc`.
 use super::context::{CliError, VERSION};
-use super::mapnc::map_netcdf;
+use super::mapnc::{NcPart, map_netcdf};
 use crate::analysis::sweep::{Boundary, MapModel, MapSpec, Slice, join_boundaries, regime_label};
 use crate::io::export::{Cell, OutputSet, Table};
 use crate::io::netcdf::FILL_I32;
@@ -63,6 +63,8 @@ pub(super) struct Kept {
 pub(super) struct MapWriter<'a> {
     mm: &'a MapModel,
     spec: &'a MapSpec,
+    /// The leading `model` column's value (`map --hierarchy`), if any.
+    model: Option<&'a str>,
     /// The corrector tolerance of the residual ([`MapModel::tolerance`]).
     tol: f64,
     /// `map.csv` so far: the header and the rows of every slice handed on.
@@ -71,9 +73,12 @@ pub(super) struct MapWriter<'a> {
     tally: Tally,
 }
 
-/// The `map.csv` columns: every across key, then the rest.
-fn csv_columns<'a>(mm: &MapModel, spec: &'a MapSpec) -> Vec<&'a str> {
-    let mut c: Vec<&str> = vec![spec.across.as_str()];
+/// The `map.csv` columns: `model` with a model column, every across key,
+/// then the rest (with a model column both residual columns,
+/// `residual_wm2` and `residual_k`).
+fn csv_columns<'a>(mm: &MapModel, spec: &'a MapSpec, model: bool) -> Vec<&'a str> {
+    let mut c: Vec<&str> = if model { vec!["model"] } else { Vec::new() };
+    c.push(spec.across.as_str());
     c.extend(spec.more.iter().map(|a| a.key.as_str()));
     c.extend([
         "branch",
@@ -84,9 +89,15 @@ fn csv_columns<'a>(mm: &MapModel, spec: &'a MapSpec) -> Vec<&'a str> {
         "global_mean_temperature_c",
         "ice_area_fraction",
         "ice_edges_deg",
-        residual_column(mm),
-        "habitable_fraction",
     ]);
+    // a hierarchy's rows hold models of both residual units: one column
+    // per unit, empty where the row's model has the other
+    if model {
+        c.extend(["residual_wm2", "residual_k"]);
+    } else {
+        c.push(residual_column(mm));
+    }
+    c.push("habitable_fraction");
     c
 }
 
@@ -102,17 +113,28 @@ pub(super) fn slice_at(spec: &MapSpec, s: &Slice) -> String {
 impl<'a> MapWriter<'a> {
     /// A writer for the map of `spec`; `annual_tol` is `solver.tolerance`.
     pub(super) fn new(mm: &'a MapModel, spec: &'a MapSpec, annual_tol: f64) -> Self {
-        let header = Table::new(&csv_columns(mm, spec))
+        let header = Table::new(&csv_columns(mm, spec, false))
             .to_csv()
             .unwrap_or_default();
         MapWriter {
             mm,
             spec,
+            model: None,
             tol: mm.tolerance(annual_tol),
             csv: header,
             kept: Vec::new(),
             tally: Tally::default(),
         }
+    }
+
+    /// The same writer with a leading `model` column of value `name` in
+    /// `map.csv` and `boundaries.csv` (`map --hierarchy`); before any slice.
+    pub(super) fn with_model_column(mut self, name: &'a str) -> Self {
+        self.model = Some(name);
+        self.csv = Table::new(&csv_columns(self.mm, self.spec, true))
+            .to_csv()
+            .unwrap_or_default();
+        self
     }
 
     /// Takes the next slice (slice index = the number handed on so far):
@@ -127,10 +149,15 @@ impl<'a> MapWriter<'a> {
                 self.kept.len()
             )));
         }
-        let mut t = Table::new(&csv_columns(self.mm, self.spec));
+        let mut t = Table::new(&csv_columns(self.mm, self.spec, self.model.is_some()));
         for q in &s.points {
             let edges: Vec<String> = q.ice_edges_deg.iter().map(|e| format!("{e}")).collect();
-            let mut row = vec![Cell::Num(s.across)];
+            let mut row: Vec<Cell> = self
+                .model
+                .map(|m| Cell::Text(m.into()))
+                .into_iter()
+                .collect();
+            row.push(Cell::Num(s.across));
             row.extend(s.more.iter().map(|v| Cell::Num(*v)));
             row.extend([
                 Cell::Int(q.branch as i64),
@@ -141,9 +168,17 @@ impl<'a> MapWriter<'a> {
                 Cell::Num(q.global_mean_c),
                 Cell::Num(q.ice_area_fraction),
                 Cell::Text(edges.join(";")),
-                Cell::Num(q.residual),
-                Cell::Num(q.habitable_fraction),
             ]);
+            if self.model.is_some() {
+                let (r, none) = (Cell::Num(q.residual), Cell::Text(String::new()));
+                row.extend(match self.mm {
+                    MapModel::Annual(_) => [r, none],
+                    MapModel::Seasonal(_) => [none, r],
+                });
+            } else {
+                row.push(Cell::Num(q.residual));
+            }
+            row.push(Cell::Num(q.habitable_fraction));
             t.push_row(row);
         }
         let rows = t.to_csv()?;
@@ -215,7 +250,7 @@ impl<'a> MapWriter<'a> {
     /// failed (nothing written), or a file that cannot be built.
     #[allow(clippy::too_many_arguments)]
     pub(super) fn finish(
-        mut self,
+        self,
         scenario: &serde_json::Value,
         scenario_toml: &str,
         name: &str,
@@ -223,6 +258,46 @@ impl<'a> MapWriter<'a> {
         out: &mut OutputSet,
         figures: plot::Formats,
     ) -> Result<Tally, CliError> {
+        let (mm, spec) = (self.mm, self.spec);
+        let (mut r, fig) = self.render(scenario, name, figures)?;
+        // moved, not copied: map.csv is the largest file of a map
+        out.add(dir.join("map.csv"), std::mem::take(&mut r.csv));
+        out.add_table(dir.join("boundaries.csv"), &r.boundaries)?;
+        // (map_netcdf takes each slice's cell climates as it copies them)
+        let nc = map_netcdf(
+            &mut [NcPart {
+                mm,
+                model: None,
+                slices: &mut r.kept,
+                regime: &r.regime,
+                count: &r.count,
+            }],
+            spec,
+            name,
+            scenario_toml,
+            &r.ys,
+            &spec.command(),
+        )?;
+        out.add_netcdf(dir.join("map.nc"), nc)?;
+        if let Some(fig) = fig {
+            fig.add_to(out, dir, "map");
+        }
+        out.add_json(dir.join("summary.json"), &r.summary);
+        out.add_text(dir.join("scenario.toml"), scenario_toml);
+        Ok(r.tally)
+    }
+
+    /// The contents of the complete map's files, not staged: `map.csv`,
+    /// `boundaries.csv` (both with the model column if the writer has one),
+    /// what `map.nc` is made of, `summary.json` and, when `figures` asks
+    /// for any, the regime figure. Errors: every slice failed, or a file
+    /// that cannot be built.
+    pub(super) fn render(
+        mut self,
+        scenario: &serde_json::Value,
+        name: &str,
+        figures: plot::Formats,
+    ) -> Result<(Rendered, Option<plot::Figure>), CliError> {
         let (mm, spec) = (self.mm, self.spec);
         let (ak, vk) = (spec.across.as_str(), spec.vary.as_str());
         // a slice with no branch traced failed: it is not "no stable climate"
@@ -242,32 +317,37 @@ impl<'a> MapWriter<'a> {
                 }
             )));
         }
-        // moved, not copied: map.csv is the largest file of a map
-        out.add(
-            dir.join("map.csv"),
-            std::mem::take(&mut self.csv).into_bytes(),
-        );
+        let csv = std::mem::take(&mut self.csv).into_bytes();
         // boundaries.csv
         let bounds = self.boundaries(scenario);
-        let mut cols = vec!["curve", "method", "transition", ak];
+        let mut cols = if self.model.is_some() {
+            vec!["model"]
+        } else {
+            Vec::new()
+        };
+        cols.extend(["curve", "method", "transition", ak]);
         cols.extend(spec.more.iter().map(|a| a.key.as_str()));
         cols.push(vk);
         let mut bt = Table::new(&cols);
         for (k, (r, b)) in bounds.iter().enumerate() {
             let others = spec.more_values(*r);
             for (a, v) in &b.points {
-                let mut row = vec![
+                let mut row: Vec<Cell> = self
+                    .model
+                    .map(|m| Cell::Text(m.into()))
+                    .into_iter()
+                    .collect();
+                row.extend([
                     Cell::Int(k as i64 + 1),
                     Cell::Text(b.method.into()),
                     Cell::Text(b.transition.clone()),
                     Cell::Num(*a),
-                ];
+                ]);
                 row.extend(others.iter().map(|o| Cell::Num(*o)));
                 row.push(Cell::Num(*v));
                 bt.push_row(row);
             }
         }
-        out.add_table(dir.join("boundaries.csv"), &bt)?;
         // gridded summary: cell c of slice j at c * slices + j (the vary
         // cell slowest, then the across keys in order, the last fastest)
         let p = self.kept.len();
@@ -289,17 +369,6 @@ impl<'a> MapWriter<'a> {
             }
         }
         let ys: Vec<f64> = (0..ny).map(|c| spec.cell_value(c)).collect();
-        // (map_netcdf takes each slice's cell climates as it copies them)
-        let nc = map_netcdf(
-            mm,
-            spec,
-            name,
-            scenario_toml,
-            &mut self.kept,
-            &ys,
-            (&regime, &count),
-        )?;
-        out.add_netcdf(dir.join("map.nc"), nc)?;
         // figure: the first across key against the traced one, at the
         // first value of every further key (all of the map for one key)
         // (failed slices are drawn as cells without a stable climate; the
@@ -326,12 +395,13 @@ impl<'a> MapWriter<'a> {
         masks.sort_unstable();
         masks.dedup();
         let names: Vec<String> = masks.iter().map(|m| regime_label(*m)).collect();
+        let mut fig = None;
         if figures.any() {
             let map = plot::RegimeMap {
                 across_key: ak.to_string(),
                 vary_key: vk.to_string(),
                 across: xs,
-                vary: ys,
+                vary: ys.clone(),
                 regime: drawn,
                 boundaries: bounds
                     .iter()
@@ -373,7 +443,7 @@ impl<'a> MapWriter<'a> {
                     drawn_failed, nx
                 )
             };
-            plot::regime_figure(figures, &title, &map)?.add_to(out, dir, "map");
+            fig = Some(plot::regime_figure(figures, &title, &map)?);
         }
         // summary
         let entry = |s: &Slice, key: &str, what: serde_json::Value| {
@@ -427,8 +497,44 @@ impl<'a> MapWriter<'a> {
                 .map(|s| entry(s, "reasons", serde_json::json!(s.notes)))
                 .collect::<Vec<_>>(),
         });
-        out.add_json(dir.join("summary.json"), &summary);
-        out.add_text(dir.join("scenario.toml"), scenario_toml);
-        Ok(self.tally)
+        Ok((
+            Rendered {
+                csv,
+                boundaries: bt,
+                bounds,
+                kept: self.kept,
+                regime,
+                count,
+                ys,
+                summary,
+                tally: self.tally,
+            },
+            fig,
+        ))
     }
+}
+
+/// A complete map of one model, rendered but not staged
+/// ([`MapWriter::render`]).
+pub(super) struct Rendered {
+    /// `map.csv`.
+    pub(super) csv: Vec<u8>,
+    /// `boundaries.csv`.
+    pub(super) boundaries: Table,
+    /// The boundaries, each with the index r of its combination of the
+    /// further across keys.
+    pub(super) bounds: Vec<(usize, Boundary)>,
+    /// The slices without their points, in slice order.
+    pub(super) kept: Vec<Kept>,
+    /// Regime mask per cell (cell c of slice j at c * slices + j; fill
+    /// for failed slices).
+    pub(super) regime: Vec<i32>,
+    /// Stable climates per cell, likewise.
+    pub(super) count: Vec<i32>,
+    /// Cell centres of the traced parameter.
+    pub(super) ys: Vec<f64>,
+    /// `summary.json`.
+    pub(super) summary: serde_json::Value,
+    /// What the report says.
+    pub(super) tally: Tally,
 }

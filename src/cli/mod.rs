@@ -8,6 +8,7 @@ pub mod context;
 pub mod figures;
 pub mod hierarchy;
 pub mod map;
+mod maphier;
 mod mapnc;
 mod mapout;
 pub mod progress;

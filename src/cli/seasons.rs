@@ -676,13 +676,9 @@ pub fn cmd_periodic(args: &Args) -> Result<String, CliError> {
             )?;
             fig.add_to(&mut out, &dir, &format!("seasonal_cycle_{}", e + 1));
         }
-        let fl = annual_model.band_fluxes(&c.annual_mean);
-        let albedo: Vec<f64> = fl
-            .insolation
-            .iter()
-            .zip(&fl.absorbed)
-            .map(|(s, a)| if *s > 0.0 { 1.0 - a / s } else { 0.0 })
-            .collect();
+        // the albedo the model applies through the year (with sea ice:
+        // of the enthalpy), not that of the annual-mean temperature
+        let albedo = crate::analysis::cycle::annual_albedo(&annual_model, c);
         curves.push(plot::ProfileCurve {
             label: format!("{}", e + 1),
             state: d.state.label().into(),

@@ -1,18 +1,21 @@
 //! The same planet in several models (the model hierarchy): their
 //! branches of climates overlaid against one control parameter, ice edge
-//! and global mean, one colour and marker per model.
+//! and global mean, one colour and marker per model; and their regime
+//! maps' boundaries overlaid over the two parameters of a map.
 
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::axis::Axis;
 use super::chart::{Stroke, build_chart, draw_marked, split_for_legend};
-use super::check::{check_finite, check_latitudes, check_len, check_nonempty, min_max};
+use super::check::{
+    check_finite, check_latitudes, check_len, check_nonempty, check_polyline, min_max,
+};
 use super::labels::{GLOBAL_MEAN, ICE_EDGE};
 use super::legend::{Sample, draw_legend, item};
 use super::render::{PRes, Paint, render, titled};
 use super::style::{Mark, SHAPES};
-use super::{BranchCurve, Figure, Formats};
+use super::{BoundaryLine, BoundaryMethod, BranchCurve, Figure, Formats};
 use crate::io::export::ExportError;
 
 /// The branches of one model of the hierarchy.
@@ -179,6 +182,153 @@ impl Paint for HierPaint<'_> {
     }
 }
 
+/// The regime boundaries of one model's map, for
+/// [`hierarchy_map_figure`].
+#[derive(Debug, Clone, Default)]
+pub struct ModelBoundaries {
+    /// Legend name of the model ("(a) annual mean").
+    pub label: String,
+    /// Its boundary curves (points: across value, traced value); may be
+    /// empty (a model without a regime boundary in the map).
+    pub lines: Vec<BoundaryLine>,
+}
+
+struct BoundPaint<'a> {
+    title: &'a str,
+    models: &'a [ModelBoundaries],
+    x: Axis,
+    y: Axis,
+}
+
+/// The regime boundaries of several models of one planet overlaid over
+/// the plane of a map: the across parameter `across_key` over `across`
+/// (lo, hi) horizontally, the traced `vary_key` over `vary` vertically;
+/// model m in colour m with marker shape m, boundaries joined from slices
+/// solid, fold curves continued in two parameters dotted. The legend
+/// names each model once ("no boundary" for a model without one) and the
+/// two line patterns present. Axes are labelled from the schema.
+///
+/// Errors: no models, more than can be told apart, an empty or inverted
+/// range, or a non-finite boundary point.
+pub fn hierarchy_map_figure(
+    formats: Formats,
+    title: &str,
+    (across_key, across): (&str, (f64, f64)),
+    (vary_key, vary): (&str, (f64, f64)),
+    models: &[ModelBoundaries],
+) -> Result<Figure, ExportError> {
+    check_nonempty("model list", models)?;
+    if models.len() > MODEL_COLOURS.len() {
+        return Err(ExportError::Shape {
+            what: format!(
+                "model list: {} models, at most {} can be told apart",
+                models.len(),
+                MODEL_COLOURS.len()
+            ),
+        });
+    }
+    for (what, (lo, hi)) in [("across range", across), ("traced range", vary)] {
+        check_finite(what, &[lo, hi])?;
+        if lo >= hi {
+            return Err(ExportError::Shape {
+                what: format!("{what} {lo}..{hi} is empty or inverted"),
+            });
+        }
+    }
+    for m in models {
+        for b in &m.lines {
+            check_polyline(
+                &format!("boundary '{}' of {}", b.transition, m.label),
+                &b.points,
+            )?;
+        }
+    }
+    render(
+        formats,
+        &BoundPaint {
+            title,
+            models,
+            x: Axis::param(across_key, across.0, across.1, 0.0),
+            y: Axis::param(vary_key, vary.0, vary.1, 0.0),
+        },
+    )
+}
+
+fn method_stroke(m: BoundaryMethod) -> Stroke {
+    match m {
+        BoundaryMethod::Slices => Stroke::Solid,
+        BoundaryMethod::FoldContinuation => Stroke::Dotted,
+    }
+}
+
+impl Paint for BoundPaint<'_> {
+    fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> PRes {
+        let area = titled(root, self.title)?;
+        let mut items = Vec::new();
+        for (k, m) in self.models.iter().enumerate() {
+            let label = if m.lines.is_empty() {
+                format!("{}: no boundary", m.label)
+            } else {
+                m.label.clone()
+            };
+            items.push(item(
+                label,
+                Sample::Line {
+                    colour: MODEL_COLOURS[k],
+                    stroke: Stroke::Solid,
+                    mark: Some(Mark {
+                        shape: SHAPES[k],
+                        filled: true,
+                    }),
+                },
+            ));
+        }
+        let lines = || self.models.iter().flat_map(|m| m.lines.iter());
+        for (method, text) in [
+            (BoundaryMethod::Slices, "folds of the slices joined"),
+            (
+                BoundaryMethod::FoldContinuation,
+                "fold continued in both parameters",
+            ),
+        ] {
+            if lines().any(|b| b.method == method) {
+                items.push(item(
+                    text,
+                    Sample::Line {
+                        colour: RGBColor(0x33, 0x33, 0x33),
+                        stroke: method_stroke(method),
+                        mark: None,
+                    },
+                ));
+            }
+        }
+        let (plots, legend) = split_for_legend(&area, "Models", &items);
+        let mut chart = build_chart(&plots, &self.x, &self.y, true)?;
+        for (k, m) in self.models.iter().enumerate() {
+            for b in &m.lines {
+                let pts: Vec<(f64, f64)> = b
+                    .points
+                    .iter()
+                    .map(|(a, v)| (self.x.c(*a), self.y.c(*v)))
+                    .collect();
+                let mark = Mark {
+                    shape: SHAPES[k],
+                    filled: true,
+                };
+                draw_marked(
+                    &mut chart,
+                    &pts,
+                    MODEL_COLOURS[k],
+                    method_stroke(b.method),
+                    mark,
+                    110.0,
+                )?;
+            }
+        }
+        draw_legend(&legend, "Models", &items, 6)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -233,5 +383,71 @@ mod tests {
             hierarchy_figure(Formats::All, "x", "radiation.forcing", &bad),
             Err(ExportError::NonFinite { .. })
         ));
+    }
+
+    #[test]
+    fn boundary_overlay_names_every_model() {
+        let line = |shift: f64, method| BoundaryLine {
+            transition: "polar-caps -> snowball".into(),
+            method,
+            points: (0..=10)
+                .map(|k| (k as f64, 1250.0 + shift + k as f64))
+                .collect(),
+        };
+        let models = vec![
+            ModelBoundaries {
+                label: "(a) annual mean".into(),
+                lines: vec![line(0.0, BoundaryMethod::Slices)],
+            },
+            ModelBoundaries {
+                label: "(b) seasonal".into(),
+                lines: vec![line(5.0, BoundaryMethod::FoldContinuation)],
+            },
+            ModelBoundaries {
+                label: "(c) seasonal with sea ice".into(),
+                lines: Vec::new(),
+            },
+        ];
+        let fig = hierarchy_map_figure(
+            Formats::All,
+            "Boundaries",
+            ("radiation.a", (0.0, 10.0)),
+            ("orbit.flux", (1240.0, 1270.0)),
+            &models,
+        )
+        .unwrap();
+        check_fig(&fig);
+        let texts = svg_texts(&fig.svg);
+        for name in [
+            "(a) annual mean",
+            "(b) seasonal",
+            "(c) seasonal with sea ice: no boundary",
+            "folds of the slices joined",
+            "fold continued in both parameters",
+        ] {
+            assert_eq!(texts.iter().filter(|t| *t == name).count(), 1, "{name}");
+        }
+        let mut bad = models.clone();
+        bad[0].lines[0].points[3].1 = f64::NAN;
+        assert!(matches!(
+            hierarchy_map_figure(
+                Formats::All,
+                "x",
+                ("radiation.a", (0.0, 10.0)),
+                ("orbit.flux", (1240.0, 1270.0)),
+                &bad
+            ),
+            Err(ExportError::NonFinite { .. })
+        ));
+        assert!(
+            hierarchy_map_figure(
+                Formats::All,
+                "x",
+                ("radiation.a", (10.0, 0.0)),
+                ("orbit.flux", (1240.0, 1270.0)),
+                &models
+            )
+            .is_err()
+        );
     }
 }

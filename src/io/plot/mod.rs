@@ -47,7 +47,7 @@ use crate::io::export::ExportError;
 
 pub use colour::sequential_colour;
 pub use field::field_figure;
-pub use hierarchy::{ModelCurves, hierarchy_figure};
+pub use hierarchy::{ModelBoundaries, ModelCurves, hierarchy_figure, hierarchy_map_figure};
 pub use hysteresis::hysteresis_figure;
 pub use profile::profile_figure;
 pub use regime::regime_figure;
