@@ -676,8 +676,12 @@ pub fn continue_boundaries(
             spec.vary_to,
             warm,
             cold,
+            // as the slices are traced: the folds, not their jumps or
+            // sensitivities
             &TraceOptions {
                 tolerance: tol,
+                integrate_jumps: false,
+                sensitivities: false,
                 ..TraceOptions::default()
             },
             &mut |_| {},
