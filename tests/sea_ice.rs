@@ -575,3 +575,29 @@ fn periodic_profile_albedo_is_the_ice_of_the_enthalpy() {
         "the albedo of the annual-mean temperature equals the ice's in every seasonal band"
     );
 }
+
+/// A shooting that fails says so with its residual in the unit of the
+/// state: W yr m-2 of enthalpy with sea ice, K without (the README's
+/// bad-input and failure rules; common practice, no source).
+#[test]
+fn failed_shooting_states_the_residual_in_the_state_unit() {
+    let opts = ShootingOptions {
+        max_iterations: 1,
+        ..ShootingOptions::default()
+    };
+    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let n = sm.len();
+    let u0 = sm.state_from_temperature(&vec![-30.0; n]);
+    let e = shoot(&mut sm, &u0, &opts).expect_err("one iteration from a uniform -30 C");
+    let msg = e.to_string();
+    assert!(msg.contains(" W yr m-2 after "), "{msg}");
+    let mut plain = sea_ice(&[
+        "grid.bands=16",
+        "seasons.steps_per_year=24",
+        "seaice.enabled=false",
+    ]);
+    let t0: Vec<f64> = (0..n).map(|i| 30.0 - 2.0 * i as f64).collect();
+    let e = shoot(&mut plain, &t0, &opts).expect_err("one iteration from a made-up profile");
+    let msg = e.to_string();
+    assert!(msg.contains(" K after "), "{msg}");
+}

@@ -177,6 +177,7 @@ pub fn shoot(
     }
     Err(SeasonalError::NotPeriodic {
         residual: res,
+        unit: sm.state_unit(),
         iterations: made,
         note: why.into(),
     })
@@ -207,6 +208,7 @@ pub fn spin_up(
     }
     Err(SeasonalError::NotPeriodic {
         residual: change,
+        unit: sm.state_unit(),
         iterations: 0,
         note: format!(" (spin-up of {max_years} years)"),
     })
@@ -251,10 +253,12 @@ pub fn periodic_from(
     match last {
         SeasonalError::NotPeriodic {
             residual,
+            unit,
             iterations,
             ..
         } => Err(SeasonalError::NotPeriodic {
             residual,
+            unit,
             iterations,
             note: format!(
                 " (shooting from the start failed: {first}; also after {years} years of spin-up)"

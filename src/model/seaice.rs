@@ -161,6 +161,12 @@ impl SeasonalModel {
         Ok(())
     }
 
+    /// The unit of the state and of its periodicity residual: W yr m-2
+    /// (the surface enthalpy E) with sea ice, K (temperature) without.
+    pub fn state_unit(&self) -> &'static str {
+        if self.has_sea_ice() { "W yr m-2" } else { "K" }
+    }
+
     /// Whether the model carries sea-ice thermodynamics (then the state is
     /// the surface enthalpy E, W yr m-2, not temperature).
     pub fn has_sea_ice(&self) -> bool {

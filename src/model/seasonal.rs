@@ -92,11 +92,14 @@ pub enum SeasonalError {
     },
     /// Shooting (and the spin-up fallback) did not reach a periodic climate.
     #[error(
-        "no periodic climate reached: max |u - Φ(u)| = {residual:e} K after {iterations} Newton iterations{note}"
+        "no periodic climate reached: max |u - Φ(u)| = {residual:e} {unit} after {iterations} Newton iterations{note}"
     )]
     NotPeriodic {
-        /// Periodicity residual reached, K.
+        /// Periodicity residual reached, in `unit`.
         residual: f64,
+        /// The state's unit: K, or W yr m-2 for the sea-ice model's
+        /// enthalpy.
+        unit: &'static str,
         /// Newton iterations made.
         iterations: usize,
         /// What else was tried.
