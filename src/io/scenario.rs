@@ -514,6 +514,7 @@ impl Scenario {
                 latent_heat: self.num("seaice.latent_heat"),
                 ocean_heat_flux: self.num("seaice.ocean_heat_flux"),
                 freezing_point: self.num("seaice.freezing_point"),
+                thermodynamics: self.flag("seaice.thermodynamics"),
             };
             return SeasonalModel::with_sea_ice(self.model(), steps as usize, ice);
         }

@@ -367,6 +367,14 @@ pub const SCHEMA: &[KeySpec] = &[
         doc: "The seasonal model carries the surface enthalpy E (Wagner & Eisenman 2015): open water where E >= 0, ice of thickness -E/latent_heat where E < 0 (albedo.threshold is then not used). Needs seasons.enabled for `trace` and `map`, diffusive or moist transport and no land.",
     },
     KeySpec {
+        key: "seaice.thermodynamics",
+        label: "Ice thermodynamics",
+        kind: Kind::Bool,
+        default: "true",
+        unit: "",
+        doc: "false: no latent heat and no insulation: the surface temperature is freezing_point + E/c_w also under ice, which is then only an albedo (no thickness); the sea-ice model becomes the seasonal model with its albedo step at freezing_point (Wagner & Eisenman 2015 without sea-ice thermodynamics).",
+    },
+    KeySpec {
         key: "seaice.conductivity",
         label: "Ice conductivity k",
         kind: pos(100.0),

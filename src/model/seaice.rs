@@ -75,6 +75,13 @@ pub struct SeaIce {
     pub ocean_heat_flux: f64,
     /// Freezing (and melting) point T_m, °C (0).
     pub freezing_point: f64,
+    /// Whether the ice has its thermodynamics (latent heat and insulation).
+    /// Without them the surface temperature is T_m + E/c_w also where
+    /// E < 0: ice is then only an albedo over a mixed layer that cools
+    /// below freezing, the model is the seasonal model with the albedo
+    /// step at T_m (the limit of Wagner & Eisenman 2015 without sea-ice
+    /// thermodynamics), and the ice has no thickness.
+    pub thermodynamics: bool,
 }
 
 /// Workspaces of the sea-ice step (allocated once).
@@ -216,10 +223,12 @@ impl SeasonalModel {
         }
     }
 
-    /// Ice thickness h = max(0, -E)/L_f per band, m (zero without sea ice).
+    /// Ice thickness h = max(0, -E)/L_f per band, m (zero without sea ice
+    /// or without its thermodynamics, where ice is only an albedo).
     pub fn ice_thickness(&self, u: &[f64]) -> Vec<f64> {
         match &self.sea_ice {
             None => vec![0.0; u.len()],
+            Some(w) if !w.ice.thermodynamics => vec![0.0; u.len()],
             Some(w) => u
                 .iter()
                 .map(|e| (-e).max(0.0) / w.ice.latent_heat)
@@ -527,7 +536,7 @@ fn ge_times(ja: &Tridiagonal, cap: &[f64], b: &[f64], out: &mut [f64], n: usize,
 #[inline]
 fn band_residual(ice: &SeaIce, cw: f64, dt: f64, e_old: f64, t: f64, g: f64) -> (f64, f64, f64) {
     let e = e_old + dt * (g + ice.ocean_heat_flux);
-    let regime = if e >= 0.0 {
+    let regime = if e >= 0.0 || !ice.thermodynamics {
         Regime::Open
     } else if g < 0.0 {
         Regime::Freezing
