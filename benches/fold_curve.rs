@@ -22,8 +22,10 @@ use icefold::io::scenario::Scenario;
 use icefold::model::{Model, Param};
 
 /// The default scenario on `bands` bands at obliquity 23, its snowball
-/// fold (state, flux) and the flux range of the default map.
-fn fold_at(bands: usize) -> (Model, Vec<f64>, f64, (f64, f64)) {
+/// fold (state, flux) and the flux range of the default map: the fold of
+/// the edge model (as `trace` and `map` find it) with `edges`, else of the
+/// band model with the sub-grid edge.
+fn fold_at(bands: usize, edges: bool) -> (Model, Vec<f64>, f64, (f64, f64)) {
     let mut m = Scenario::load(None, &[format!("grid.bands={bands}")])
         .unwrap()
         .model();
@@ -35,36 +37,8 @@ fn fold_at(bands: usize) -> (Model, Vec<f64>, f64, (f64, f64)) {
         sensitivities: false,
         ..TraceOptions::default()
     };
-    let h = trace_subgrid(
-        &m,
-        Param::Flux,
-        range.0,
-        range.1,
-        30.0,
-        -60.0,
-        &opts,
-        &mut |_| {},
-    );
-    let (u, p) = h
-        .branches
-        .iter()
-        .flat_map(|b| b.folds.iter())
-        .map(|f| (f.point.temperature.clone(), f.point.p))
-        .min_by(|a, b| a.1.total_cmp(&b.1))
-        .expect("a snowball fold");
-    (m, u, p, range)
-}
-
-/// The snowball fold of the edge model (as `trace` and `map` find it) on
-/// `bands` bands at obliquity 23, with the default map's flux range.
-fn edge_fold_at(bands: usize) -> (Model, Vec<f64>, f64, (f64, f64)) {
-    let (m, _, _, range) = fold_at(bands);
-    let opts = TraceOptions {
-        integrate_jumps: false,
-        sensitivities: false,
-        ..TraceOptions::default()
-    };
-    let h = trace_all(
+    let trace = if edges { trace_all } else { trace_subgrid };
+    let h = trace(
         &m,
         Param::Flux,
         range.0,
@@ -152,9 +126,9 @@ fn map(model: &Model, spec: &MapSpec, fold_curves: bool) -> usize {
 fn main() {
     let s = Summary::new("fold_curve");
     let mut c = Criterion::default().without_plots().configure_from_args();
-    let f90 = fold_at(90);
-    let f360 = fold_at(360);
-    let (e90, e360) = (edge_fold_at(90), edge_fold_at(360));
+    let f90 = fold_at(90, false);
+    let f360 = fold_at(360, false);
+    let (e90, e360) = (fold_at(90, true), fold_at(360, true));
     let mut points = [0usize; 6];
     let mut edge_points = [(0usize, 0.0, 0.0); 4];
     for (group, across, k) in [
