@@ -471,22 +471,18 @@ impl Problem for SeasonalProblem {
             self.sm.set_param(self.param, p);
         }
     }
+    /// G(u) = u - Φ(u). A state not yet linearised is integrated with its
+    /// monodromy ([`SeasonalProblem::linearise`]): the continuation asks for
+    /// the residual alone only at a corrected point, whose tangent (and
+    /// Floquet multipliers) need the monodromy next, so the year is not
+    /// integrated twice. Φ is the same either way (the same steps).
     fn residual(&mut self, u: &[f64], f: &mut [f64]) {
-        if self.is_cached(u) {
-            for i in 0..u.len() {
-                f[i] = u[i] - self.phi[i];
-            }
+        if self.linearise(u).is_err() {
+            f.fill(f64::NAN);
             return;
         }
-        let mut t = u.to_vec();
-        self.years_integrated += 1;
-        match self.sm.year(&mut t) {
-            Ok(()) => {
-                for i in 0..u.len() {
-                    f[i] = u[i] - t[i];
-                }
-            }
-            Err(_) => f.fill(f64::NAN),
+        for i in 0..u.len() {
+            f[i] = u[i] - self.phi[i];
         }
     }
     fn factor(&mut self, u: &[f64], f: &mut [f64]) -> Result<(), Singular> {
