@@ -179,6 +179,8 @@ pub struct SeasonalModel {
     prev: Vec<f64>,
     dfdp: Vec<f64>,
     scratch: Vec<f64>,
+    /// -C/Δt per band, the row scaling of a monodromy step.
+    step_scale: Vec<f64>,
     batch: BatchLu,
     /// Per step and half-band, the albedo integrals of the step's
     /// insolation ([`Model::half_integrals`]), so a step does not redo the
@@ -243,6 +245,7 @@ impl SeasonalModel {
             prev: vec![0.0; n],
             dfdp: vec![0.0; n],
             scratch: vec![0.0; n],
+            step_scale: vec![0.0; n],
             batch: BatchLu::default(),
             integrals: Vec::new(),
             year_mean: vec![0.0; n],
@@ -481,6 +484,13 @@ impl SeasonalModel {
             b[i * w + i] = 1.0;
         }
         self.year_mean.fill(0.0);
+        for (s, c) in self
+            .step_scale
+            .iter_mut()
+            .zip(&self.model.planet.heat_capacity)
+        {
+            *s = -c / dt;
+        }
         let steps = self.steps as f64;
         for k in 0..self.steps {
             self.step(k, t, false)?;
@@ -494,20 +504,12 @@ impl SeasonalModel {
             } else {
                 self.dfdp.fill(0.0);
             }
-            let cap = &self.model.planet.heat_capacity;
-            let b = &mut self.batch.b;
-            for i in 0..n {
-                let s = -cap[i] / dt;
-                let row = &mut b[i * w..(i + 1) * w];
-                for x in row.iter_mut() {
-                    *x *= s;
-                }
-                row[n] -= self.dfdp[i];
-            }
+            // B ← (J - C/Δt)⁻¹ (-(C/Δt) B - ∂F/∂p e_wᵀ), the scaling done
+            // row by row inside the solve
             self.batch
                 .factor(&self.ws.jac)
                 .map_err(|row| SeasonalError::Singular { step: k, row })?;
-            self.batch.solve();
+            self.batch.solve_scaled(&self.step_scale, &self.dfdp);
         }
         let b = &self.batch.b;
         for i in 0..n {
