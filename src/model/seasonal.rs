@@ -199,6 +199,23 @@ pub struct SeasonalModel {
     pub(crate) sea_ice: Option<crate::model::seaice::SeaIceWork>,
 }
 
+/// The largest of four partial maxima (NaNs ignored, as by `f64::max`).
+#[inline]
+fn max4(part: [f64; 4]) -> f64 {
+    part[0].max(part[1]).max(part[2].max(part[3]))
+}
+
+/// max_i |v_i| by four interleaved partial maxima, NaNs ignored as by
+/// `f64::max`: the value of the sequential maximum in any order.
+#[inline]
+fn max_abs4(v: &[f64]) -> f64 {
+    let mut part = [0.0f64; 4];
+    for (i, x) in v.iter().enumerate() {
+        part[i & 3] = part[i & 3].max(x.abs());
+    }
+    max4(part)
+}
+
 /// Whether changing `p` changes the insolation tables.
 pub(crate) fn moves_insolation(p: Param) -> bool {
     matches!(
@@ -373,19 +390,26 @@ impl SeasonalModel {
         for it in 0..=self.max_step_iterations {
             self.model
                 .evaluate(t, &mut self.ws.f, Some(&mut self.ws.jac));
-            let cap = &self.model.planet.heat_capacity;
-            err = 0.0f64;
+            let cap = &self.model.planet.heat_capacity[..n];
+            let (f, dx) = (&self.ws.f[..n], &mut self.ws.dx[..n]);
+            let (diag, prev) = (&mut self.ws.jac.diag[..n], &self.prev[..n]);
+            // the maxima in four interleaved partial maxima (the same
+            // value in any order, without one long chain of dependent
+            // comparisons); a NaN anywhere makes err NaN
+            let (mut part, mut nan) = ([0.0f64; 4], false);
             for i in 0..n {
-                let r = cap[i] * (t[i] - self.prev[i]) / dt - self.ws.f[i];
-                self.ws.dx[i] = r;
+                let r = cap[i] * (t[i] - prev[i]) / dt - f[i];
+                dx[i] = r;
                 let e = (r * dt / cap[i]).abs();
-                err = if e.is_nan() { f64::NAN } else { err.max(e) };
-                self.ws.jac.diag[i] -= cap[i] / dt;
+                nan |= e.is_nan();
+                part[i & 3] = part[i & 3].max(e);
+                diag[i] -= cap[i] / dt;
             }
+            err = if nan { f64::NAN } else { max4(part) };
             if !err.is_finite() {
                 return Err(SeasonalError::NonFinite { step: k });
             }
-            let scale = 1.0 + t.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+            let scale = 1.0 + max_abs4(t);
             // converged, or the last correction was at rounding level
             let done = err < self.step_tolerance
                 || (last_step < 1e-14 * scale && err < 1e3 * self.step_tolerance);
@@ -409,11 +433,10 @@ impl SeasonalModel {
                 row: s.row,
             })?;
             self.ws.jac.solve(&mut self.ws.dx);
-            last_step = 0.0;
-            for i in 0..n {
-                t[i] += self.ws.dx[i];
-                last_step = last_step.max(self.ws.dx[i].abs());
+            for (x, d) in t.iter_mut().zip(&self.ws.dx) {
+                *x += d;
             }
+            last_step = max_abs4(&self.ws.dx);
             if !last_step.is_finite() {
                 return Err(SeasonalError::NonFinite { step: k });
             }
