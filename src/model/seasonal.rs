@@ -181,6 +181,9 @@ pub struct SeasonalModel {
     scratch: Vec<f64>,
     /// -C/Δt per band, the row scaling of a monodromy step.
     step_scale: Vec<f64>,
+    /// C/Δt per band (the heat capacity and the step never change), for
+    /// the diagonal of a step's matrix J - C/Δt.
+    cap_over_dt: Vec<f64>,
     batch: BatchLu,
     /// Per step and half-band, the albedo integrals of the step's
     /// insolation ([`Model::half_integrals`]), so a step does not redo the
@@ -253,6 +256,9 @@ impl SeasonalModel {
         let tables = insolation_tables(&model, steps_per_year);
         let halves = 2 * n;
         let ws = Workspace::new(&model);
+        // Δt as SeasonalModel::dt computes it
+        let dt = 1.0 / steps_per_year as f64;
+        let cap_over_dt = model.planet.heat_capacity.iter().map(|c| c / dt).collect();
         let mut sm = SeasonalModel {
             model,
             steps: steps_per_year,
@@ -263,6 +269,7 @@ impl SeasonalModel {
             dfdp: vec![0.0; n],
             scratch: vec![0.0; n],
             step_scale: vec![0.0; n],
+            cap_over_dt,
             batch: BatchLu::default(),
             integrals: Vec::new(),
             year_mean: vec![0.0; n],
@@ -393,6 +400,7 @@ impl SeasonalModel {
             let cap = &self.model.planet.heat_capacity[..n];
             let (f, dx) = (&self.ws.f[..n], &mut self.ws.dx[..n]);
             let (diag, prev) = (&mut self.ws.jac.diag[..n], &self.prev[..n]);
+            let cap_over_dt = &self.cap_over_dt[..n];
             // the maxima in four interleaved partial maxima (the same
             // value in any order, without one long chain of dependent
             // comparisons); a NaN anywhere makes err NaN
@@ -403,7 +411,7 @@ impl SeasonalModel {
                 let e = (r * dt / cap[i]).abs();
                 nan |= e.is_nan();
                 part[i & 3] = part[i & 3].max(e);
-                diag[i] -= cap[i] / dt;
+                diag[i] -= cap_over_dt[i];
             }
             err = if nan { f64::NAN } else { max4(part) };
             if !err.is_finite() {
