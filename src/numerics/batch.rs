@@ -179,13 +179,15 @@ impl BatchLu {
             let (top, rest) = b.split_at_mut((i + 1) * w);
             let ri = &mut top[i * w..];
             let rn = &mut rest[..w];
-            if let Some((scale, shift)) = prep {
-                op!(scale_shift(rn, scale[i + 1], shift[i + 1]));
-            }
-            if self.swap[i] {
-                op!(swap_eliminate(ri, rn, f));
-            } else {
-                op!(eliminate(rn, ri, f));
+            match (prep, self.swap[i]) {
+                (Some((scale, shift)), true) => {
+                    op!(scale_swap_eliminate(ri, rn, f, scale[i + 1], shift[i + 1]))
+                }
+                (Some((scale, shift)), false) => {
+                    op!(scale_eliminate(rn, ri, f, scale[i + 1], shift[i + 1]))
+                }
+                (None, true) => op!(swap_eliminate(ri, rn, f)),
+                (None, false) => op!(eliminate(rn, ri, f)),
             }
         }
         for i in (0..n).rev() {
@@ -251,6 +253,40 @@ macro_rules! row_ops {
             for (x, a) in rn.iter_mut().zip(ri) {
                 *x -= f * a;
             }
+        }
+
+        /// rn ← (s rn - c e_w) - f ri: [`scale_shift`] and [`eliminate`]
+        /// in one pass, each entry through the same operations.
+        $(#[$feature])?
+        #[inline(never)]
+        pub(super) fn scale_eliminate(rn: &mut [f64], ri: &[f64], f: f64, s: f64, c: f64) {
+            let Some(((xl, rn), (al, ri))) = rn.split_last_mut().zip(ri.split_last()) else {
+                return;
+            };
+            for (x, a) in rn.iter_mut().zip(ri) {
+                *x = *x * s - f * a;
+            }
+            *xl = (*xl * s - c) - f * al;
+        }
+
+        /// (ri, rn) ← (rn', ri - f rn') with rn' = s rn - c e_w:
+        /// [`scale_shift`] and [`swap_eliminate`] in one pass.
+        $(#[$feature])?
+        #[inline(never)]
+        pub(super) fn scale_swap_eliminate(ri: &mut [f64], rn: &mut [f64], f: f64, s: f64, c: f64) {
+            let Some(((al, ri), (xl, rn))) = ri.split_last_mut().zip(rn.split_last_mut()) else {
+                return;
+            };
+            for (a, x) in ri.iter_mut().zip(rn.iter_mut()) {
+                let temp = *a;
+                let y = *x * s;
+                *a = y;
+                *x = temp - f * y;
+            }
+            let temp = *al;
+            let y = *xl * s - c;
+            *al = y;
+            *xl = temp - f * y;
         }
 
         /// (ri, rn) ← (rn, ri - f rn): the interchanged elimination step.
