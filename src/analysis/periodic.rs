@@ -25,7 +25,7 @@ const UNBLOCKED_SCHUR_BELOW: usize = 128;
 /// Eigenvalues (Floquet multipliers) of the row-major n x n matrix `m`,
 /// as (re, im) pairs sorted by decreasing modulus: the real Schur form of
 /// the Hessenberg reduction (dense, faer's `evd_real` without eigenvectors;
-/// unblocked below [`UNBLOCKED_SCHUR_BELOW`]).
+/// unblocked below 128 bands).
 pub fn floquet_multipliers(m: &[f64], n: usize) -> Option<Vec<(f64, f64)>> {
     use faer::dyn_stack::{MemBuffer, MemStack};
     use faer::linalg::evd::{ComputeEigenvectors, EvdParams, SchurParams, evd_real, evd_scratch};
@@ -472,7 +472,7 @@ impl Problem for SeasonalProblem {
         }
     }
     /// G(u) = u - Φ(u). A state not yet linearised is integrated with its
-    /// monodromy ([`SeasonalProblem::linearise`]): the continuation asks for
+    /// monodromy (as `factor` does): the continuation asks for
     /// the residual alone only at a corrected point, whose tangent (and
     /// Floquet multipliers) need the monodromy next, so the year is not
     /// integrated twice. Φ is the same either way (the same steps).
