@@ -4,9 +4,13 @@
 //! here, more than criterion's ten samples allow, so the groups time an
 //! evenly spread subset of SLICES slices of the same map (obliquity 0 to
 //! 90 degrees, the default flux range, the scenario's own seasonal model)
-//! on 1 and 2 threads. The summary prints the speed-up, and the time of
-//! the full 91-slice map projected from the 2-thread time per slice
-//! (marked as a projection: the slices differ in cost).
+//! on 1 and 2 threads. The summary prints the 1- and 2-thread times side
+//! by side with the speed-up, the time of the full 91-slice map projected
+//! from them (marked as a projection: the slices differ in cost), and how
+//! busy the machine was: the load average at the start and the end, and
+//! the CPU time each group got per second of wall time (about 2 for the
+//! 2-thread group on two free cores; less when other work shares them,
+//! and then the speed-up measures that share, not the scaling).
 mod common;
 
 use common::{Summary, secs};
@@ -61,17 +65,22 @@ fn main() {
             .build()
             .unwrap()
     };
+    let load_start = load_average();
     let mut results: Vec<Option<Vec<Slice>>> = vec![None, None];
+    let mut cores_used = [f64::NAN; 2];
     let mut g = c.benchmark_group("seasonal_map");
     g.sample_size(10);
     for threads in [1, 2] {
         let p = pool(threads);
         let out = &mut results[threads - 1];
+        let (wall, cpu) = (std::time::Instant::now(), cpu_seconds());
         g.bench_function(format!("threads={threads}"), |b| {
             b.iter(|| *out = Some(p.install(|| slices(&model, &spec))))
         });
+        cores_used[threads - 1] = (cpu_seconds() - cpu) / wall.elapsed().as_secs_f64();
     }
     g.finish();
+    let load_end = load_average();
     c.final_summary();
     if let [Some(one), Some(two)] = &results[..] {
         assert_eq!(one, two, "results depend on the number of threads");
@@ -85,11 +94,59 @@ fn main() {
         &["seasonal_map", "threads=2"],
         &["seasonal_map", "threads=1"],
     );
-    if let Some(t) = s.time(&["seasonal_map", "threads=2"]) {
+    let (one, two) = (
+        s.time(&["seasonal_map", "threads=1"]),
+        s.time(&["seasonal_map", "threads=2"]),
+    );
+    if let (Some(t1), Some(t2)) = (one, two) {
         s.note(format!(
-            "projected 91-slice seasonal map on 2 threads: {} (91/{SLICES} x the time above; target: under 60 s)",
-            secs(t * 91.0 / SLICES as f64)
+            "{SLICES} slices: 1 thread {} ({} per slice) | 2 threads {} ({} per slice) | speed-up {:.2}x (target: >= 1.8x)",
+            secs(t1),
+            secs(t1 / SLICES as f64),
+            secs(t2),
+            secs(t2 / SLICES as f64),
+            t1 / t2
         ));
+        s.note(format!(
+            "projected 91-slice seasonal map: 1 thread {}, 2 threads {} (91/{SLICES} x the times above; target on 2 threads: under 60 s)",
+            secs(t1 * 91.0 / SLICES as f64),
+            secs(t2 * 91.0 / SLICES as f64)
+        ));
+    } else {
+        s.note("1- and 2-thread times: not both measured in this run");
     }
+    s.note(format!(
+        "machine: {} CPUs, load average (1 min) {} at the start, {} at the end; CPU time per wall second: {:.2} in the 1-thread group, {:.2} in the 2-thread group",
+        std::thread::available_parallelism().map_or(0, |n| n.get()),
+        load_start,
+        load_end,
+        cores_used[0],
+        cores_used[1]
+    ));
     s.print();
+}
+
+/// The 1-minute load average (Linux `/proc/loadavg`), or "unknown".
+fn load_average() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .ok()
+        .and_then(|l| l.split_whitespace().next().map(str::to_owned))
+        .unwrap_or_else(|| "unknown".into())
+}
+
+/// User plus system CPU time of this process so far, s (Linux
+/// `/proc/self/stat`, fields 14 and 15 in ticks of 1/100 s; NaN elsewhere).
+fn cpu_seconds() -> f64 {
+    let Ok(stat) = std::fs::read_to_string("/proc/self/stat") else {
+        return f64::NAN;
+    };
+    // the fields after the command name, which is in parentheses
+    let rest = stat.rsplit_once(')').map_or("", |(_, r)| r);
+    let f: Vec<&str> = rest.split_whitespace().collect();
+    let tick = |i: usize| {
+        f.get(i)
+            .and_then(|s| s.parse::<f64>().ok())
+            .unwrap_or(f64::NAN)
+    };
+    (tick(11) + tick(12)) / 100.0
 }

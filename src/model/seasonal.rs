@@ -182,6 +182,11 @@ pub struct SeasonalModel {
     prev: Vec<f64>,
     dfdp: Vec<f64>,
     scratch: Vec<f64>,
+    /// -C/Δt per band, the row scaling of a monodromy step.
+    step_scale: Vec<f64>,
+    /// C/Δt per band (the heat capacity and the step never change), for
+    /// the diagonal of a step's matrix J - C/Δt.
+    cap_over_dt: Vec<f64>,
     batch: BatchLu,
     /// Per step and half-band, the albedo integrals of the step's
     /// insolation ([`Model::half_integrals`]), so a step does not redo the
@@ -198,6 +203,23 @@ pub struct SeasonalModel {
     /// Sea-ice thermodynamics ([`crate::model::seaice`]): with it the
     /// state is the surface enthalpy E, W yr m-2.
     pub(crate) sea_ice: Option<crate::model::seaice::SeaIceWork>,
+}
+
+/// The largest of four partial maxima (NaNs ignored, as by `f64::max`).
+#[inline]
+fn max4(part: [f64; 4]) -> f64 {
+    part[0].max(part[1]).max(part[2].max(part[3]))
+}
+
+/// max_i |v_i| by four interleaved partial maxima, NaNs ignored as by
+/// `f64::max`: the value of the sequential maximum in any order.
+#[inline]
+fn max_abs4(v: &[f64]) -> f64 {
+    let mut part = [0.0f64; 4];
+    for (i, x) in v.iter().enumerate() {
+        part[i & 3] = part[i & 3].max(x.abs());
+    }
+    max4(part)
 }
 
 /// Whether changing `p` changes the insolation tables.
@@ -237,6 +259,9 @@ impl SeasonalModel {
         let tables = insolation_tables(&model, steps_per_year);
         let halves = 2 * n;
         let ws = Workspace::new(&model);
+        // Δt as SeasonalModel::dt computes it
+        let dt = 1.0 / steps_per_year as f64;
+        let cap_over_dt = model.planet.heat_capacity.iter().map(|c| c / dt).collect();
         let mut sm = SeasonalModel {
             model,
             steps: steps_per_year,
@@ -246,6 +271,8 @@ impl SeasonalModel {
             prev: vec![0.0; n],
             dfdp: vec![0.0; n],
             scratch: vec![0.0; n],
+            step_scale: vec![0.0; n],
+            cap_over_dt,
             batch: BatchLu::default(),
             integrals: Vec::new(),
             year_mean: vec![0.0; n],
@@ -373,19 +400,27 @@ impl SeasonalModel {
         for it in 0..=self.max_step_iterations {
             self.model
                 .evaluate(t, &mut self.ws.f, Some(&mut self.ws.jac));
-            let cap = &self.model.planet.heat_capacity;
-            err = 0.0f64;
+            let cap = &self.model.planet.heat_capacity[..n];
+            let (f, dx) = (&self.ws.f[..n], &mut self.ws.dx[..n]);
+            let (diag, prev) = (&mut self.ws.jac.diag[..n], &self.prev[..n]);
+            let cap_over_dt = &self.cap_over_dt[..n];
+            // the maxima in four interleaved partial maxima (the same
+            // value in any order, without one long chain of dependent
+            // comparisons); a NaN anywhere makes err NaN
+            let (mut part, mut nan) = ([0.0f64; 4], false);
             for i in 0..n {
-                let r = cap[i] * (t[i] - self.prev[i]) / dt - self.ws.f[i];
-                self.ws.dx[i] = r;
+                let r = cap[i] * (t[i] - prev[i]) / dt - f[i];
+                dx[i] = r;
                 let e = (r * dt / cap[i]).abs();
-                err = if e.is_nan() { f64::NAN } else { err.max(e) };
-                self.ws.jac.diag[i] -= cap[i] / dt;
+                nan |= e.is_nan();
+                part[i & 3] = part[i & 3].max(e);
+                diag[i] -= cap_over_dt[i];
             }
+            err = if nan { f64::NAN } else { max4(part) };
             if !err.is_finite() {
                 return Err(SeasonalError::NonFinite { step: k });
             }
-            let scale = 1.0 + t.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+            let scale = 1.0 + max_abs4(t);
             // converged, or the last correction was at rounding level
             let done = err < self.step_tolerance
                 || (last_step < 1e-14 * scale && err < 1e3 * self.step_tolerance);
@@ -409,11 +444,10 @@ impl SeasonalModel {
                 row: s.row,
             })?;
             self.ws.jac.solve(&mut self.ws.dx);
-            last_step = 0.0;
-            for i in 0..n {
-                t[i] += self.ws.dx[i];
-                last_step = last_step.max(self.ws.dx[i].abs());
+            for (x, d) in t.iter_mut().zip(&self.ws.dx) {
+                *x += d;
             }
+            last_step = max_abs4(&self.ws.dx);
             if !last_step.is_finite() {
                 return Err(SeasonalError::NonFinite { step: k });
             }
@@ -484,6 +518,13 @@ impl SeasonalModel {
             b[i * w + i] = 1.0;
         }
         self.year_mean.fill(0.0);
+        for (s, c) in self
+            .step_scale
+            .iter_mut()
+            .zip(&self.model.planet.heat_capacity)
+        {
+            *s = -c / dt;
+        }
         let steps = self.steps as f64;
         for k in 0..self.steps {
             self.step(k, t, false)?;
@@ -497,20 +538,12 @@ impl SeasonalModel {
             } else {
                 self.dfdp.fill(0.0);
             }
-            let cap = &self.model.planet.heat_capacity;
-            let b = &mut self.batch.b;
-            for i in 0..n {
-                let s = -cap[i] / dt;
-                let row = &mut b[i * w..(i + 1) * w];
-                for x in row.iter_mut() {
-                    *x *= s;
-                }
-                row[n] -= self.dfdp[i];
-            }
+            // B ← (J - C/Δt)⁻¹ (-(C/Δt) B - ∂F/∂p e_wᵀ), the scaling done
+            // row by row inside the solve
             self.batch
                 .factor(&self.ws.jac)
                 .map_err(|row| SeasonalError::Singular { step: k, row })?;
-            self.batch.solve();
+            self.batch.solve_scaled(&self.step_scale, &self.dfdp);
         }
         let b = &self.batch.b;
         for i in 0..n {
