@@ -267,7 +267,7 @@ pub fn equilibrium_from(
     }
     let mut f = vec![0.0; model.len()];
     model.evaluate(&t, &mut f, None);
-    let residual = f.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+    let residual = crate::numerics::newton::max_abs(&f);
     let unstable = unstable_modes(model, &t, &mut ws);
     let diagnostics = diagnose(model, &t);
     Ok(Equilibrium {

@@ -114,12 +114,19 @@ impl Workspace {
     }
 }
 
-/// max_i |v_i| (the residual norm of every solver), NaN for a NaN entry.
+/// max_i |v_i| (the residual norm of every solver), NaN for a NaN entry
+/// anywhere (`f64::max` drops a NaN operand, so a NaN must end the scan, or
+/// a finite entry after it would hide it and a NaN state could pass as
+/// converged).
 pub fn max_abs(v: &[f64]) -> f64 {
-    v.iter().fold(
-        0.0f64,
-        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
-    )
+    let mut m = 0.0f64;
+    for x in v {
+        if x.is_nan() {
+            return f64::NAN;
+        }
+        m = m.max(x.abs());
+    }
+    m
 }
 
 fn norm2(v: &[f64]) -> f64 {
@@ -342,5 +349,23 @@ pub fn dense_unstable_modes(j: &Tridiagonal, cap: &[f64]) -> usize {
     match m.eigenvalues() {
         Ok(ev) => ev.iter().filter(|z| z.re > 0.0).count(),
         Err(_) => usize::MAX,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    /// A NaN anywhere makes the norm NaN, wherever it sits (common
+    /// practice, no source).
+    #[test]
+    fn max_abs_keeps_a_nan_wherever_it_sits() {
+        assert_eq!(super::max_abs(&[-3.0, 2.0]), 3.0);
+        assert_eq!(super::max_abs(&[]), 0.0);
+        for v in [
+            [f64::NAN, 1.0, 2.0],
+            [1.0, f64::NAN, 2.0],
+            [1.0, 2.0, f64::NAN],
+        ] {
+            assert!(super::max_abs(&v).is_nan(), "{v:?}");
+        }
     }
 }
