@@ -168,15 +168,23 @@ fn trace(c: &mut Criterion, s: &Summary) {
 
 /// The sea-ice model (`scenarios/sea-ice.toml`, 60 bands, 72 steps per
 /// year): the periodic climate by shooting from the annual-mean
-/// equilibrium of the same planet, against spin-up from there until the
+/// equilibrium of the same planet (as `trace --hierarchy` makes it: the
+/// ocean heat flux F_b that the sea-ice model takes from below is a
+/// forcing of the annual-mean model), against spin-up from there until the
 /// year-over-year change is below the shooting tolerance (1e-10 W yr m-2),
 /// i.e. the same tolerance.
 fn sea_ice(c: &mut Criterion, s: &Summary) {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/sea-ice.toml");
-    let sc = Scenario::load(Some(std::path::Path::new(path)), &[]).unwrap();
+    let path = std::path::Path::new(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/scenarios/sea-ice.toml"
+    ));
+    let sc = Scenario::load(Some(path), &[]).unwrap();
     let mut sm = sc.seasonal_model().unwrap();
     let n = sm.len();
-    let am = sc.model();
+    let fb = sc.num("seaice.ocean_heat_flux") + sc.num("radiation.forcing");
+    let am = Scenario::load(Some(path), &[format!("radiation.forcing={fb}")])
+        .unwrap()
+        .model();
     let starts = icefold::model::climate::standard_starts(n, 30.0, -60.0);
     let search = icefold::model::climate::find_equilibria(&am, &starts, &NewtonOptions::default());
     let warm = search
