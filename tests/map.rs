@@ -474,6 +474,25 @@ fn continued_boundaries_meet_the_slices() {
     }
     // both continued transitions of the default scenario meet several slices
     assert!(met >= 4, "{met}\n{text}");
+    // summary.json says where each boundary begins and ends: the snowball
+    // fold's curve from the across bound 0 to inside the range, where it
+    // meets the large-cap fold (a cusp near 50.6 deg)
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("summary.json")).unwrap()).unwrap();
+    let curve = summary["boundaries"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|b| b["method"] == "fold-continuation" && b["transition"] == "polar-caps -> snowball")
+        .expect("the snowball fold's curve");
+    assert_eq!(
+        curve["ends"],
+        serde_json::json!(["across bound", "inside"]),
+        "{curve}"
+    );
+    assert_eq!(curve["first"][0], 0.0, "{curve}");
+    let end = curve["last"][0].as_f64().unwrap();
+    assert!(end > 45.0 && end < 55.0, "{curve}");
 }
 
 /// A slice that fails is reported as failed, never as "no stable climate"

@@ -467,6 +467,24 @@ impl<'a> MapWriter<'a> {
         let tl = &self.tally;
         let boundary_entry = |(r, b): &(usize, Boundary)| {
             let mut e = serde_json::json!({"transition": b.transition, "method": b.method, "points": b.points.len()});
+            // where each end lies: on a bound of the across range, or
+            // inside it (the boundary stops there)
+            if let (Some(first), Some(last)) = (b.points.first(), b.points.last()) {
+                let (lo, hi) = (
+                    spec.across_from.min(spec.across_to),
+                    spec.across_from.max(spec.across_to),
+                );
+                let end = |a: f64| {
+                    if a <= lo || a >= hi {
+                        "across bound"
+                    } else {
+                        "inside"
+                    }
+                };
+                e["first"] = serde_json::json!([first.0, first.1]);
+                e["last"] = serde_json::json!([last.0, last.1]);
+                e["ends"] = serde_json::json!([end(first.0), end(last.0)]);
+            }
             for (a, v) in spec.more.iter().zip(spec.more_values(*r)) {
                 e[a.key.as_str()] = v.into();
             }
