@@ -536,12 +536,12 @@ impl Model {
                     out[i] = self.absorbed_band(i, t, None);
                 }
             }
-            // the orbital annual mean scales as (1 - e²)^(-1/2) and depends
-            // on e in no other way (Insolation::annual_mean): ∂F/∂e =
-            // S0 e / (1 - e²) ∂F/∂S0
+            // ∂F/∂e = S0 (∂ ln S̄/∂e) ∂F/∂S0: the orbital annual mean
+            // depends on e only through its scale
             Param::Eccentricity if matches!(self.planet.insolation, InsolationLaw::Orbital) => {
                 let o = self.planet.orbit;
-                let de = o.flux * o.eccentricity / (1.0 - o.eccentricity * o.eccentricity);
+                let de =
+                    crate::physics::insolation::eccentricity_flux_factor(o.flux, o.eccentricity);
                 for i in 0..n {
                     out[i] = de * self.absorbed_band(i, t, None);
                 }

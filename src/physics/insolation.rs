@@ -134,6 +134,15 @@ pub fn clipped_sine_mean(a: f64, c: f64) -> f64 {
     }
 }
 
+/// S0 ∂ ln S̄ / ∂e of the orbital annual mean for flux S0 and
+/// eccentricity e: S̄ ∝ (1 - e²)^(-1/2) and depends on e in no other way
+/// ([`Insolation::annual_mean`], Kepler's second law), so ∂S̄/∂e =
+/// S̄ e / (1 - e²) and ∂F/∂e = S0 e / (1 - e²) ∂F/∂S0 for any F in which
+/// the insolation enters as S0 times a per-unit-flux profile.
+pub fn eccentricity_flux_factor(flux: f64, e: f64) -> f64 {
+    flux * e / (1.0 - e * e)
+}
+
 /// Annual-mean insolation as a function of latitude.
 #[derive(Clone, Debug)]
 pub struct Insolation {

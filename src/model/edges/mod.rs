@@ -644,7 +644,7 @@ impl EdgeModel {
         out[n..].fill(0.0);
         let o = self.model.planet.orbit;
         let orbital = matches!(self.model.planet.insolation, InsolationLaw::Orbital);
-        let de = o.flux * o.eccentricity / (1.0 - o.eccentricity * o.eccentricity);
+        let de = crate::physics::insolation::eccentricity_flux_factor(o.flux, o.eccentricity);
         for i in 0..n {
             let w = self.widths[i] * self.per_width;
             out[i] = match q {
