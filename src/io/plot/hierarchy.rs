@@ -44,6 +44,22 @@ struct HierPaint<'a> {
     gm: Axis,
 }
 
+/// Refuses an empty model list and more models than the colours tell
+/// apart (one colour and marker per model).
+fn check_model_count<T>(models: &[T]) -> Result<(), ExportError> {
+    check_nonempty("model list", models)?;
+    if models.len() > MODEL_COLOURS.len() {
+        return Err(ExportError::Shape {
+            what: format!(
+                "model list: {} models, at most {} can be told apart",
+                models.len(),
+                MODEL_COLOURS.len()
+            ),
+        });
+    }
+    Ok(())
+}
+
 /// Ice-edge latitude (top) and global-mean temperature (bottom) of every
 /// model's branches against `param_key`: model m in colour m and marker
 /// shape m, stable pieces solid with filled markers, unstable ones dashed
@@ -57,16 +73,7 @@ pub fn hierarchy_figure(
     param_key: &str,
     models: &[ModelCurves],
 ) -> Result<Figure, ExportError> {
-    check_nonempty("model list", models)?;
-    if models.len() > MODEL_COLOURS.len() {
-        return Err(ExportError::Shape {
-            what: format!(
-                "model list: {} models, at most {} can be told apart",
-                models.len(),
-                MODEL_COLOURS.len()
-            ),
-        });
-    }
+    check_model_count(models)?;
     for m in models {
         check_nonempty(&format!("branches of {}", m.label), &m.branches)?;
         for b in &m.branches {
@@ -217,16 +224,7 @@ pub fn hierarchy_map_figure(
     (vary_key, vary): (&str, (f64, f64)),
     models: &[ModelBoundaries],
 ) -> Result<Figure, ExportError> {
-    check_nonempty("model list", models)?;
-    if models.len() > MODEL_COLOURS.len() {
-        return Err(ExportError::Shape {
-            what: format!(
-                "model list: {} models, at most {} can be told apart",
-                models.len(),
-                MODEL_COLOURS.len()
-            ),
-        });
-    }
+    check_model_count(models)?;
     for (what, (lo, hi)) in [("across range", across), ("traced range", vary)] {
         check_finite(what, &[lo, hi])?;
         if lo >= hi {
