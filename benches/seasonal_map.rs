@@ -45,20 +45,13 @@ fn main() {
     )
     .unwrap();
     let sm = sc.seasonal_model().unwrap();
-    let flux = sm.param(Param::Flux);
-    let model = MapModel::Seasonal(sm);
+    // the default map's grid (obliquity 0 to 90, 200 cells over 0.8 to
+    // 1.15 times the flux), reduced to SLICES slices
     let spec = MapSpec {
-        across: "orbit.obliquity".into(),
-        across_from: 0.0,
-        across_to: 90.0,
         count: SLICES,
-        vary: "orbit.flux".into(),
-        vary_from: 0.8 * flux,
-        vary_to: 1.15 * flux,
-        cells: 200,
-        fold_curves: false,
-        more: Vec::new(),
+        ..common::default_map_spec(sm.model())
     };
+    let model = MapModel::Seasonal(sm);
     let pool = |threads: usize| {
         rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
