@@ -38,8 +38,7 @@ use crate::model::{Model, Param};
 use crate::numerics::continuation::Problem;
 
 /// A fold of one topology at fixed a: the continuation state v (edges
-/// scaled by [`EDGE_UNITS`]), the continuation coordinate of p, and the
-/// direction of the family (x_p / (x_p)_e) there.
+/// scaled by [`EDGE_UNITS`]) and the continuation coordinate of p.
 #[derive(Clone, Debug)]
 struct EdgeFold {
     v: Vec<f64>,
@@ -242,7 +241,8 @@ pub fn trace_edge_fold_curve(
         let h_max = span / 40.0;
         let h_min = 1e-4 * span.max(1e-300);
         loop {
-            let (a1, f1) = last.last().expect("a start").clone();
+            let (a1, f1) = last.last().expect("a start");
+            let (a1, e1, p1) = (*a1, f1.v[j], f1.p);
             if (bound - a1) * sign <= 0.0 {
                 break;
             }
@@ -252,33 +252,33 @@ pub fn trace_edge_fold_curve(
                 a1 + sign * h
             };
             // linear extrapolation of the last two folds
-            let (mut v, mut pc) = (f1.v.clone(), f1.p);
+            let (mut v, mut pc) = (f1.v.clone(), p1);
             if last.len() >= 2 {
                 let (a2, f2) = &last[last.len() - 2];
                 let r = (a - a1) / (a1 - a2);
-                for (x, (b, c)) in v.iter_mut().zip(f1.v.iter().zip(&f2.v)) {
-                    *x = b + r * (b - c);
+                for (x, c) in v.iter_mut().zip(&f2.v) {
+                    *x += r * (*x - c);
                 }
-                pc = f1.p + r * (f1.p - f2.p);
+                pc = p1 + r * (p1 - f2.p);
             }
             pr.em.model.set_param(across, a);
             pr.em.refresh();
             work.located += 1;
             let found = locate(&mut pr, &v, pc, j, tolerance, Some(slope)).filter(|(g, _)| {
                 // the same fold: the held edge and p move continuously
-                (g.v[j] - f1.v[j]).abs() <= 0.1 * EDGE_UNITS
-                    && (g.p - f1.p).abs() <= 0.1 * width.abs().max(1e-300)
+                (g.v[j] - e1).abs() <= 0.1 * EDGE_UNITS
+                    && (g.p - p1).abs() <= 0.1 * width.abs().max(1e-300)
             });
             match found {
                 Some((g, gs)) => {
+                    // well outside the vary range: the curve has left the map
+                    let left = g.p < wlo - width || g.p > whi + width;
                     last.push((a, g));
                     if gs.is_finite() && gs != 0.0 {
                         slope = gs;
                     }
                     h = (h * 1.5).min(h_max);
-                    // well outside the vary range: the curve has left the map
-                    let q = last.last().expect("pushed").1.p;
-                    if q < wlo - width || q > whi + width {
+                    if left {
                         break;
                     }
                 }
