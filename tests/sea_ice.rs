@@ -674,3 +674,91 @@ fn without_ice_thermodynamics_the_sea_ice_model_is_the_seasonal_model() {
     }
     assert!(gaps[2] < 0.1, "{gaps:?}");
 }
+
+/// The recorded tangent year gives M v without forming M: its products
+/// with the unit vectors equal the columns of the dense monodromy matrix
+/// (itself checked against central differences above), and a product
+/// with a general vector equals M v (linearity; common practice, no
+/// source).
+#[test]
+fn tangent_products_equal_the_monodromy_columns() {
+    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let n = sm.len();
+    let grid = sm.model().grid.clone();
+    let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
+    let u0 = sm.state_from_temperature(&t0);
+    let mut phi = u0.clone();
+    let mut m = vec![0.0; n * n];
+    sm.year_with_jacobian(&mut phi, &mut m, None).unwrap();
+    let mut tape = icefold::model::seaice::YearTape::new(&sm);
+    let mut taped = u0.clone();
+    sm.year_taped(&mut taped, &mut tape).unwrap();
+    assert_eq!(taped, phi, "the taped year is the same year");
+    let scale = max_abs(&m);
+    let mut out = vec![0.0; n];
+    for j in 0..n {
+        let mut e = vec![0.0; n];
+        e[j] = 1.0;
+        tape.apply(&e, &mut out);
+        for i in 0..n {
+            let d = (out[i] - m[i * n + j]).abs();
+            assert!(
+                d <= 1e-13 * scale,
+                "M[{i},{j}]: {} vs {}",
+                out[i],
+                m[i * n + j]
+            );
+        }
+    }
+    let v: Vec<f64> = (0..n).map(|i| (0.7 * i as f64).cos()).collect();
+    tape.apply(&v, &mut out);
+    for i in 0..n {
+        let mv: f64 = (0..n).map(|j| m[i * n + j] * v[j]).sum();
+        assert!((out[i] - mv).abs() <= 1e-12 * scale, "(M v)[{i}]");
+    }
+}
+
+/// Newton-Krylov shooting of the sea-ice model reaches the climate that
+/// plain time stepping reaches (an independent method: spin-up until the
+/// year-over-year change is below 1e-11 W yr m-2), and its Floquet
+/// multipliers (Ritz values of Arnoldi on the tangent year) are the
+/// leading eigenvalues of the dense monodromy matrix at that climate, as
+/// faer's dense eigenvalue solver finds them (a general-purpose reference
+/// library).
+#[test]
+fn newton_krylov_shooting_agrees_with_spin_up_and_dense_multipliers() {
+    let mut sm = sea_ice(&["grid.bands=24", "seasons.steps_per_year=36"]);
+    let n = sm.len();
+    let grid = sm.model().grid.clone();
+    let t0: Vec<f64> = grid.centres.iter().map(|x| 28.0 - 35.0 * x * x).collect();
+    let u0 = sm.state_from_temperature(&t0);
+    let start = icefold::model::climate::Start {
+        label: "warm".into(),
+        temperature: t0,
+    };
+    let p =
+        periodic_from(&mut sm, &start, &ShootingOptions::default()).expect("a periodic climate");
+    assert!(p.residual < 1e-10);
+    let mut spun = u0.clone();
+    icefold::analysis::periodic::spin_up(&mut sm, &mut spun, 1e-11, 100_000).unwrap();
+    let d = spun
+        .iter()
+        .zip(&p.start)
+        .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+    assert!(d < 1e-8, "shooting vs spin-up: {d:e} W yr m-2");
+    let mut m = vec![0.0; n * n];
+    let mut e = p.start.clone();
+    sm.year_with_jacobian(&mut e, &mut m, None).unwrap();
+    let dense = icefold::analysis::periodic::floquet_multipliers(&m, n).unwrap();
+    assert!(p.multipliers.len() >= 5);
+    for k in 0..5 {
+        let (a, b) = (p.multipliers[k], dense[k]);
+        let (ma, mb) = (a.0.hypot(a.1), b.0.hypot(b.1));
+        assert!(
+            (ma - mb).abs() < 1e-8,
+            "|mu_{k}|: {ma} (Arnoldi) vs {mb} (dense)"
+        );
+    }
+    assert_eq!(p.unstable_modes, 0);
+    assert!(dense[0].0.hypot(dense[0].1) < 1.0);
+}

@@ -19,6 +19,7 @@ pub mod jumps;
 pub mod ordered;
 pub mod periodic;
 pub mod sensitivity;
+pub mod shooting;
 pub mod skeleton;
 pub mod sweep;
 pub mod thermostat;

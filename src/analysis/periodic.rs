@@ -5,13 +5,13 @@
 //! multipliers are the eigenvalues μ of M, unstable when |μ| > 1.
 
 pub use super::cycle::{Cycle, cycle, cycle_diagnostics, polar_ice_edges};
+pub use super::shooting::shoot;
 use crate::analysis::branches::{Fold, Hysteresis, TracedBranch, TracedPoint};
 use crate::model::climate::{Start, diagnose};
 use crate::model::seasonal::*;
 use crate::model::{Model, Param};
 use crate::numerics::continuation::{Branch, Problem, Settings, Tracer};
 use crate::numerics::linalg::Singular;
-use crate::numerics::newton::max_abs;
 use faer::prelude::Solve;
 
 /// Below this order the Floquet multipliers come from the unblocked
@@ -78,6 +78,9 @@ pub struct ShootingOptions {
     pub max_step: f64,
     /// Fallback: years of spin-up before trying Newton again.
     pub spin_up_years: usize,
+    /// With sea ice: largest change of any one band per Newton iteration,
+    /// K (times c_w in enthalpy; [`crate::analysis::shooting`]).
+    pub band_step: f64,
 }
 
 impl Default for ShootingOptions {
@@ -87,6 +90,7 @@ impl Default for ShootingOptions {
             max_iterations: 40,
             max_step: 20.0,
             spin_up_years: 300,
+            band_step: 5.0,
         }
     }
 }
@@ -108,114 +112,6 @@ pub struct Periodic {
     pub unstable_modes: usize,
     /// Label of the start that led here.
     pub label: String,
-}
-
-/// Newton on G(u) = u - Φ(u) from `u0`: solve (I - M) δ = -G (dense LU,
-/// faer), cap max |δ| at `max_step`, backtrack (halving, at most 12 times)
-/// until ||G||₂ decreases. Returns the fixed point with its multipliers;
-/// fails with the residual reached. Never returns a state that is not
-/// periodic to `tolerance`.
-pub fn shoot(
-    sm: &mut SeasonalModel,
-    u0: &[f64],
-    opts: &ShootingOptions,
-) -> Result<Periodic, SeasonalError> {
-    let n = sm.len();
-    let mut u = u0.to_vec();
-    let mut phi = vec![0.0; n];
-    let mut m = vec![0.0; n * n];
-    let mut g = vec![0.0; n];
-    let mut trial = vec![0.0; n];
-    let mut res = f64::INFINITY;
-    // Φ and M at u; each accepted trial below is integrated with its
-    // Jacobian right away, so no year is integrated twice.
-    phi.copy_from_slice(&u);
-    sm.year_with_jacobian(&mut phi, &mut m, None)?;
-    let mut history: Vec<f64> = Vec::with_capacity(opts.max_iterations + 1);
-    let (mut made, mut why) = (0, "");
-    for iter in 0..=opts.max_iterations {
-        made = iter;
-        for i in 0..n {
-            g[i] = u[i] - phi[i];
-        }
-        res = max_abs(&g);
-        if res < opts.tolerance {
-            let multipliers = floquet_multipliers(&m, n).ok_or_else(|| {
-                SeasonalError::Invalid("the eigenvalue solve of the monodromy matrix failed".into())
-            })?;
-            return Ok(Periodic {
-                start: u,
-                residual: res,
-                iterations: iter,
-                spun_up_years: 0,
-                unstable_modes: count_unstable(&multipliers),
-                multipliers,
-                label: String::new(),
-            });
-        }
-        if iter == opts.max_iterations || !res.is_finite() {
-            break;
-        }
-        // a stall: six iterations that did not halve the residual (Newton
-        // is far from a fixed point of a kinked map; the caller spins up)
-        history.push(res);
-        if iter >= 6 && res > 0.5 * history[iter - 6] {
-            why = " (stalled: six Newton iterations did not halve the residual)";
-            break;
-        }
-        let a = faer::Mat::<f64>::from_fn(n, n, |r, c| f64::from(u8::from(r == c)) - m[r * n + c]);
-        let lu = a.partial_piv_lu();
-        let mut rhs = faer::Mat::<f64>::from_fn(n, 1, |i, _| -g[i]);
-        lu.solve_in_place(rhs.as_mut());
-        let delta: Vec<f64> = (0..n).map(|i| rhs[(i, 0)]).collect();
-        let big = max_abs(&delta);
-        if !big.is_finite() {
-            break;
-        }
-        // the cap is in K: in enthalpy units with sea ice
-        let cap = opts.max_step * sm.state_per_kelvin();
-        let mut lambda = if big > cap { cap / big } else { 1.0 };
-        let g0: f64 = g.iter().map(|x| x * x).sum();
-        let mut accepted = false;
-        for attempt in 0..12 {
-            for i in 0..n {
-                trial[i] = u[i] + lambda * delta[i];
-            }
-            phi.copy_from_slice(&trial);
-            // the full step is usually accepted: integrate it with its
-            // Jacobian; shorter trials first without
-            let ok = if attempt == 0 {
-                sm.year_with_jacobian(&mut phi, &mut m, None).is_ok()
-            } else {
-                sm.year(&mut phi).is_ok()
-            };
-            if ok {
-                let g1: f64 = trial.iter().zip(&phi).map(|(a, b)| (a - b) * (a - b)).sum();
-                if g1.is_finite()
-                    && (g1 <= (1.0 - 1e-4 * lambda) * g0 || g1.sqrt() < opts.tolerance)
-                {
-                    if attempt > 0 {
-                        phi.copy_from_slice(&trial);
-                        sm.year_with_jacobian(&mut phi, &mut m, None)?;
-                    }
-                    accepted = true;
-                    break;
-                }
-            }
-            lambda *= 0.5;
-        }
-        if !accepted {
-            why = " (stalled: no step along the Newton direction reduced the residual)";
-            break;
-        }
-        u.copy_from_slice(&trial);
-    }
-    Err(SeasonalError::NotPeriodic {
-        residual: res,
-        unit: sm.state_unit(),
-        iterations: made,
-        note: why.into(),
-    })
 }
 
 /// Integrates whole years from `t` until the largest year-over-year change

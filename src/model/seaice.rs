@@ -60,6 +60,9 @@ use crate::numerics::linalg::Tridiagonal;
 use crate::physics::radiation::Olr;
 use crate::physics::transport::Transport;
 
+mod tangent;
+pub use tangent::YearTape;
+
 /// Largest surface-temperature change of one Newton iteration of the
 /// sea-ice step with moist transport, K.
 const MOIST_STEP_K: f64 = 10.0;
@@ -511,13 +514,7 @@ pub fn sea_ice_exact(p: Param) -> bool {
 /// the one column of a parameter sensitivity).
 fn ge_times(ja: &Tridiagonal, cap: &[f64], b: &[f64], out: &mut [f64], n: usize, w: usize) {
     for i in 0..n {
-        let lo = if i > 0 { ja.lower[i] / cap[i - 1] } else { 0.0 };
-        let di = ja.diag[i] / cap[i];
-        let up = if i + 1 < n {
-            ja.upper[i] / cap[i + 1]
-        } else {
-            0.0
-        };
+        let (lo, di, up) = ge_entries(ja, cap, i);
         for col in 0..w {
             let mut v = di * b[i * w + col];
             if i > 0 {
@@ -529,6 +526,22 @@ fn ge_times(ja: &Tridiagonal, cap: &[f64], b: &[f64], out: &mut [f64], n: usize,
             out[i * w + col] = v;
         }
     }
+}
+
+/// Row i of G_E = ∂(a S)/∂E: the entries (i, i-1), (i, i), (i, i+1) of
+/// the tridiagonal ∂(a S)/∂θ `ja`, column j divided by c_w(j) (θ = E/c_w);
+/// 0 outside the grid.
+#[inline]
+fn ge_entries(ja: &Tridiagonal, cap: &[f64], i: usize) -> (f64, f64, f64) {
+    let n = cap.len();
+    let lo = if i > 0 { ja.lower[i] / cap[i - 1] } else { 0.0 };
+    let di = ja.diag[i] / cap[i];
+    let up = if i + 1 < n {
+        ja.upper[i] / cap[i + 1]
+    } else {
+        0.0
+    };
+    (lo, di, up)
 }
 
 /// r_i, c_i = -∂r_i/∂G_i (total, through E_i), ρ_i = ∂r_i/∂Eⁿ_i of one band

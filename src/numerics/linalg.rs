@@ -73,6 +73,21 @@ impl Tridiagonal {
         self.factored = false;
     }
 
+    /// Copies `other` (same size) with its factors, so that [`Tridiagonal::solve`]
+    /// on the copy gives bit-identical results; allocates nothing when the
+    /// sizes already match and neither has a rank-one term.
+    pub fn copy_factored_from(&mut self, other: &Tridiagonal) {
+        self.copy_entries_from(other);
+        self.dl.copy_from_slice(&other.dl);
+        self.d.copy_from_slice(&other.d);
+        self.inv_d.copy_from_slice(&other.inv_d);
+        self.du.copy_from_slice(&other.du);
+        self.du2.copy_from_slice(&other.du2);
+        self.swap.copy_from_slice(&other.swap);
+        self.z.copy_from_slice(&other.z);
+        self.factored = other.factored;
+    }
+
     /// Dimension.
     pub fn len(&self) -> usize {
         self.diag.len()

@@ -5,6 +5,7 @@
 pub mod batch;
 pub mod continuation;
 pub mod grid;
+pub mod krylov;
 pub mod linalg;
 pub mod newton;
 pub mod quad;
