@@ -220,8 +220,8 @@ fn sea_ice(c: &mut Criterion, s: &Summary) {
     );
     if let Some(p) = &shot {
         s.note(format!(
-            "  shooting: {} Newton iterations after {} years of spin-up, residual {:.1e} W yr m-2, {} unstable modes; spin-up alone: {years} years",
-            p.iterations, p.spun_up_years, p.residual, p.unstable_modes
+            "  shooting: {} Newton iterations after {} years of spin-up ({} years and {} tangent products M v in the Newton-Krylov shooting), residual {:.1e} W yr m-2, {} unstable modes; spin-up alone: {years} years",
+            p.iterations, p.spun_up_years, p.shooting_years, p.tangent_products, p.residual, p.unstable_modes
         ));
     }
 }

@@ -106,6 +106,12 @@ pub struct Periodic {
     pub iterations: usize,
     /// Years of spin-up needed before Newton converged (0 if none).
     pub spun_up_years: usize,
+    /// Years integrated by the shooting that converged (with or without
+    /// their linearisation; not the spin-up, nor shootings that failed).
+    pub shooting_years: usize,
+    /// Products M v with the recorded tangent year (GMRES and Arnoldi;
+    /// 0 for the dense solve).
+    pub tangent_products: usize,
     /// Floquet multipliers (re, im), largest modulus first.
     pub multipliers: Vec<(f64, f64)>,
     /// Multipliers with |μ| > 1.

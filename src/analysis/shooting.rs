@@ -34,12 +34,18 @@ use crate::numerics::newton::max_abs;
 
 /// Arnoldi steps for the leading Floquet multipliers of the sea-ice model
 /// (at most the number of bands).
-pub const RITZ_STEPS: usize = 30;
+pub const RITZ_STEPS: usize = 20;
 
 /// The linearisation carried with each shooting year.
 enum Linear {
-    Dense { m: Vec<f64> },
-    Krylov { tape: Box<YearTape>, kr: Krylov },
+    Dense {
+        m: Vec<f64>,
+    },
+    Krylov {
+        tape: Box<YearTape>,
+        kr: Krylov,
+        products: usize,
+    },
 }
 
 impl Linear {
@@ -49,11 +55,20 @@ impl Linear {
             Linear::Krylov {
                 tape: Box::new(YearTape::new(sm)),
                 kr: Krylov::new(n, n.min(60)),
+                products: 0,
             }
         } else {
             Linear::Dense {
                 m: vec![0.0; n * n],
             }
+        }
+    }
+
+    /// Products with the tangent year so far.
+    fn products(&self) -> usize {
+        match self {
+            Linear::Dense { .. } => 0,
+            Linear::Krylov { products, .. } => *products,
         }
     }
 
@@ -81,7 +96,7 @@ impl Linear {
                     *d = rhs[(i, 0)];
                 }
             }
-            Linear::Krylov { tape, kr } => {
+            Linear::Krylov { tape, kr, products } => {
                 let rhs: Vec<f64> = g.iter().map(|x| -x).collect();
                 let eta = max_abs(g).min(1e-3);
                 let mut op = |v: &[f64], out: &mut [f64]| {
@@ -91,6 +106,7 @@ impl Linear {
                     }
                 };
                 let rep = kr.gmres(&mut op, &rhs, delta, eta);
+                *products += rep.iterations;
                 if !rep.relative_residual.is_finite() {
                     return false;
                 }
@@ -104,7 +120,7 @@ impl Linear {
     fn multipliers(&mut self, n: usize) -> Option<Vec<(f64, f64)>> {
         match self {
             Linear::Dense { m } => floquet_multipliers(m, n),
-            Linear::Krylov { tape, kr } => {
+            Linear::Krylov { tape, kr, products } => {
                 // a start with every component (a fixed pseudo-random
                 // vector: the multipliers do not depend on it)
                 let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
@@ -118,6 +134,7 @@ impl Linear {
                     .collect();
                 let mut op = |v: &[f64], out: &mut [f64]| tape.apply(v, out);
                 let (h, j, _) = kr.arnoldi(&mut op, &start, RITZ_STEPS.min(n));
+                *products += j;
                 if j == 0 {
                     return None;
                 }
@@ -151,6 +168,7 @@ pub fn shoot(
     // integrated twice.
     phi.copy_from_slice(&u);
     lin.year(sm, &mut phi)?;
+    let mut years = 1;
     let mut history: Vec<f64> = Vec::with_capacity(opts.max_iterations + 1);
     let (mut made, mut why) = (0, "");
     let mut radius = opts.band_step * sm.state_per_kelvin();
@@ -170,6 +188,8 @@ pub fn shoot(
                 residual: res,
                 iterations: iter,
                 spun_up_years: 0,
+                shooting_years: years,
+                tangent_products: lin.products(),
                 unstable_modes: count_unstable(&multipliers),
                 multipliers,
                 label: String::new(),
@@ -210,6 +230,7 @@ pub fn shoot(
             phi.copy_from_slice(&trial);
             // the full step is usually accepted: integrate it with its
             // linearisation; shorter trials first without
+            years += 1;
             let ok = if attempt == 0 {
                 lin.year(sm, &mut phi).is_ok()
             } else {
@@ -223,6 +244,7 @@ pub fn shoot(
                     if attempt > 0 {
                         phi.copy_from_slice(&trial);
                         lin.year(sm, &mut phi)?;
+                        years += 1;
                     }
                     accepted = true;
                     // the box grows after a full clipped step, shrinks to
