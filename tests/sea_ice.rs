@@ -25,19 +25,26 @@ fn max_abs(v: &[f64]) -> f64 {
     v.iter().fold(0.0f64, |m, x| m.max(x.abs()))
 }
 
-/// The monodromy matrix of the exact step derivative equals central
-/// differences of the annual map (common practice, no source).
-#[test]
-fn monodromy_matches_finite_differences() {
+/// 16 bands, 24 steps: a state with an ice cap poleward of about 60 deg
+/// and open water elsewhere, Φ of it and the dense monodromy matrix there.
+fn ice_cap_year() -> (SeasonalModel, Vec<f64>, Vec<f64>, Vec<f64>) {
     let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
     let n = sm.len();
-    // an ice cap poleward of about 60 deg, open water elsewhere
     let grid = sm.model().grid.clone();
     let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
     let u0 = sm.state_from_temperature(&t0);
     let mut phi = u0.clone();
     let mut m = vec![0.0; n * n];
     sm.year_with_jacobian(&mut phi, &mut m, None).unwrap();
+    (sm, u0, phi, m)
+}
+
+/// The monodromy matrix of the exact step derivative equals central
+/// differences of the annual map (common practice, no source).
+#[test]
+fn monodromy_matches_finite_differences() {
+    let (mut sm, u0, _phi, m) = ice_cap_year();
+    let n = sm.len();
     let mut worst: f64 = 0.0;
     for j in 0..n {
         let h = 1e-4 * (1.0 + u0[j].abs());
@@ -682,14 +689,8 @@ fn without_ice_thermodynamics_the_sea_ice_model_is_the_seasonal_model() {
 /// source).
 #[test]
 fn tangent_products_equal_the_monodromy_columns() {
-    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let (mut sm, u0, phi, m) = ice_cap_year();
     let n = sm.len();
-    let grid = sm.model().grid.clone();
-    let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
-    let u0 = sm.state_from_temperature(&t0);
-    let mut phi = u0.clone();
-    let mut m = vec![0.0; n * n];
-    sm.year_with_jacobian(&mut phi, &mut m, None).unwrap();
     let mut tape = icefold::model::seaice::YearTape::new(&sm);
     let mut taped = u0.clone();
     sm.year_taped(&mut taped, &mut tape).unwrap();
