@@ -25,14 +25,27 @@ fn max_abs(v: &[f64]) -> f64 {
     v.iter().fold(0.0f64, |m, x| m.max(x.abs()))
 }
 
+/// The sea-ice model with `sets`, the profile T = a - b x² (°C, x the
+/// sine of latitude at the band centres) and its state.
+fn profile_state(sets: &[&str], a: f64, b: f64) -> (SeasonalModel, Vec<f64>, Vec<f64>) {
+    let sm = sea_ice(sets);
+    let t0: Vec<f64> = sm
+        .model()
+        .grid
+        .centres
+        .iter()
+        .map(|x| a - b * x * x)
+        .collect();
+    let u0 = sm.state_from_temperature(&t0);
+    (sm, t0, u0)
+}
+
 /// 16 bands, 24 steps: a state with an ice cap poleward of about 60 deg
 /// and open water elsewhere, Φ of it and the dense monodromy matrix there.
 fn ice_cap_year() -> (SeasonalModel, Vec<f64>, Vec<f64>, Vec<f64>) {
-    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let (mut sm, _, u0) =
+        profile_state(&["grid.bands=16", "seasons.steps_per_year=24"], 25.0, 40.0);
     let n = sm.len();
-    let grid = sm.model().grid.clone();
-    let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
-    let u0 = sm.state_from_temperature(&t0);
     let mut phi = u0.clone();
     let mut m = vec![0.0; n * n];
     sm.year_with_jacobian(&mut phi, &mut m, None).unwrap();
@@ -68,11 +81,9 @@ fn monodromy_matches_finite_differences() {
 #[test]
 fn parameter_sensitivity_matches_finite_differences() {
     use icefold::model::Param;
-    let mut sm = sea_ice(&["grid.bands=16", "seasons.steps_per_year=24"]);
+    let (mut sm, _, u0) =
+        profile_state(&["grid.bands=16", "seasons.steps_per_year=24"], 25.0, 40.0);
     let n = sm.len();
-    let grid = sm.model().grid.clone();
-    let t0: Vec<f64> = grid.centres.iter().map(|x| 25.0 - 40.0 * x * x).collect();
-    let u0 = sm.state_from_temperature(&t0);
     for p in [
         Param::Forcing,
         Param::OlrA,
@@ -728,11 +739,9 @@ fn tangent_products_equal_the_monodromy_columns() {
 /// library).
 #[test]
 fn newton_krylov_shooting_agrees_with_spin_up_and_dense_multipliers() {
-    let mut sm = sea_ice(&["grid.bands=24", "seasons.steps_per_year=36"]);
+    let (mut sm, t0, u0) =
+        profile_state(&["grid.bands=24", "seasons.steps_per_year=36"], 28.0, 35.0);
     let n = sm.len();
-    let grid = sm.model().grid.clone();
-    let t0: Vec<f64> = grid.centres.iter().map(|x| 28.0 - 35.0 * x * x).collect();
-    let u0 = sm.state_from_temperature(&t0);
     let start = icefold::model::climate::Start {
         label: "warm".into(),
         temperature: t0,

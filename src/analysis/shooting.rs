@@ -20,11 +20,12 @@
 //!   of scaling the whole step (r starts at `band_step` K of enthalpy, c_w
 //!   per K; it doubles after a full step that the box cut, and shrinks to
 //!   the step taken after a shortened one, down to a tenth of the start:
-//!   a trust region in the max norm): far from the periodic climate, a band of ice that melts at T_m
-//!   all year has a multiplier near one (its thickness changes nothing in
-//!   the year but itself), I - M is nearly singular there and the Newton
-//!   step huge in those few bands alone; scaling the whole step down to
-//!   them would throw away the other bands' step.
+//!   a trust region in the max norm): far from the periodic climate, a
+//!   band of ice that melts at T_m all year has a multiplier near one (its
+//!   thickness changes nothing in the year but itself), I - M is nearly
+//!   singular there and the Newton step huge in those few bands alone;
+//!   scaling the whole step down to them would throw away the other
+//!   bands' step.
 
 use super::periodic::{Periodic, ShootingOptions, count_unstable, floquet_multipliers};
 use crate::model::seaice::YearTape;
@@ -97,7 +98,7 @@ impl Linear {
                 }
             }
             Linear::Krylov { tape, kr, products } => {
-                let rhs: Vec<f64> = g.iter().map(|x| -x).collect();
+                // (I - M)(-δ) = g: no negated copy of g
                 let eta = max_abs(g).min(1e-3);
                 let mut op = |v: &[f64], out: &mut [f64]| {
                     tape.apply(v, out);
@@ -105,10 +106,13 @@ impl Linear {
                         *o = x - *o;
                     }
                 };
-                let rep = kr.gmres(&mut op, &rhs, delta, eta);
+                let rep = kr.gmres(&mut op, g, delta, eta);
                 *products += rep.iterations;
                 if !rep.relative_residual.is_finite() {
                     return false;
+                }
+                for d in delta.iter_mut() {
+                    *d = -*d;
                 }
             }
         }
@@ -146,7 +150,8 @@ impl Linear {
 
 /// Newton on G(u) = u - Φ(u) from `u0`: solve (I - M) δ = -G (module
 /// docs: dense LU, or GMRES for the sea-ice model), cap max |δ| at
-/// `max_step`, backtrack (halving, at most 12 times) until ||G||₂
+/// `max_step` (with sea ice: each |δ_i| within the box of the module
+/// docs), backtrack (halving, at most 12 times) until ||G||₂
 /// decreases. Returns the fixed point with its multipliers; fails with the
 /// residual reached. Never returns a state that is not periodic to
 /// `tolerance`.
@@ -208,10 +213,7 @@ pub fn shoot(
         if !lin.newton_direction(&g, &mut delta) {
             break;
         }
-        let big = max_abs(&delta);
-        // the cap is in K: in enthalpy units with sea ice
-        let cap = opts.max_step * sm.state_per_kelvin();
-        let mut lambda = if big > cap { cap / big } else { 1.0 };
+        let mut lambda = 1.0;
         let mut clipped = false;
         if let Linear::Krylov { .. } = lin {
             // band by band, within the box radius (module docs)
@@ -219,7 +221,13 @@ pub fn shoot(
                 clipped |= d.abs() > radius;
                 *d = d.clamp(-radius, radius);
             }
-            lambda = 1.0;
+        } else {
+            // the whole step scaled to max |δ| <= max_step
+            let big = max_abs(&delta);
+            let cap = opts.max_step * sm.state_per_kelvin();
+            if big > cap {
+                lambda = cap / big;
+            }
         }
         let g0: f64 = g.iter().map(|x| x * x).sum();
         let mut accepted = false;
